@@ -1,0 +1,56 @@
+"""Boundary conditions of the food slab and the phases of a cook.
+
+The slab lies on the lower plate with its face 0 (x = 0); face 1 (x = L) faces the air or
+the upper platen. A flip mirrors the slab, so the face that was up touches the plate.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+#: Stefan-Boltzmann constant, W/(m^2 K^4) (CODATA 2018, exact in SI since 2019).
+STEFAN_BOLTZMANN = 5.670374419e-8
+
+
+@dataclass(frozen=True)
+class FaceBC:
+    """Heat exchange of one face with its surroundings.
+
+    Heat flux into the food is ``h*(t_inf - t_s) + emissivity*sigma*(T_inf^4 - T_s^4)``.
+
+    Attributes
+    ----------
+    h : float
+        Convective or contact heat-transfer coefficient, W/(m^2 K).
+    t_inf_c : float
+        Temperature of the plate, platen or air seen by the face, degC.
+    emissivity : float
+        Surface emissivity for radiation exchange with surroundings at ``t_inf_c``, -.
+        Zero for plate contact (contact coefficient already covers it).
+    """
+
+    h: float
+    t_inf_c: float
+    emissivity: float = 0.0
+
+
+@dataclass(frozen=True)
+class Phase:
+    """A stretch of the cook with fixed boundary conditions.
+
+    Attributes
+    ----------
+    duration_s : float
+        Length of the phase, s.
+    face0 : FaceBC
+        Boundary condition at x = 0 (the face down on the plate).
+    face1 : FaceBC
+        Boundary condition at x = L (the face up).
+    flip_before : bool
+        Mirror the temperature and lethality profiles at the start of the phase.
+    """
+
+    duration_s: float
+    face0: FaceBC
+    face1: FaceBC
+    flip_before: bool = False
