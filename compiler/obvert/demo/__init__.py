@@ -1,0 +1,1 @@
+"""Obvert demo package."""

@@ -1,0 +1,1 @@
+"""Obvert review package."""

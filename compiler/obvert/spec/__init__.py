@@ -1,0 +1,1 @@
+"""Obvert spec package."""
