@@ -42,3 +42,42 @@ class LethalityModel:
     def hold_time_s(self, temp_c: float, log_reduction: float) -> float:
         """Time at constant ``temp_c`` (degC) that gives ``log_reduction``, s."""
         return float(log_reduction / self.rate(temp_c))
+
+
+def log_reduction(model: LethalityModel, time_s: ArrayLike, temp_c: ArrayLike) -> float:
+    """Log reduction accumulated over a sampled temperature history (trapezoid rule).
+
+    Parameters
+    ----------
+    model : LethalityModel
+        Kinetics of the target organism.
+    time_s : array_like
+        Strictly increasing sample times, s (at least two).
+    temp_c : array_like
+        Temperature at each sample time, degC.
+
+    Returns
+    -------
+    float
+        Accumulated log10 reduction, -.
+    """
+    t = np.asarray(time_s, dtype=float)
+    temp = np.asarray(temp_c, dtype=float)
+    if t.ndim != 1 or t.size < 2:
+        raise ValueError(f"time_s has shape {t.shape}: allowed a 1-D array of at least 2 times")
+    if temp.shape != t.shape:
+        raise ValueError(f"temp_c has shape {temp.shape}: allowed the shape of time_s {t.shape}")
+    for label, arr in (("time_s", t), ("temp_c", temp)):
+        bad = np.flatnonzero(~np.isfinite(arr))
+        if bad.size:
+            j = int(bad[0])
+            raise ValueError(f"{label}[{j}] = {float(arr[j])!r}: allowed finite values only")
+    steps = np.diff(t)
+    if np.any(steps <= 0.0):
+        i = int(np.flatnonzero(steps <= 0.0)[0]) + 1
+        raise ValueError(
+            f"time_s[{i}] = {float(t[i])!r} s is not after time_s[{i - 1}] = "
+            f"{float(t[i - 1])!r} s; times must be strictly increasing"
+        )
+    rate = model.rate(temp)
+    return float(np.sum(0.5 * (rate[1:] + rate[:-1]) * steps))
