@@ -1,0 +1,239 @@
+"""Template context of the C targets, computed from the manifest and the target profile.
+
+Everything a C template needs is decided here: symbol names, the data rows (events padded to
+``max_events``), the C types, the number of bytes of const data and the banner text. The
+template only lays these out.
+"""
+
+from __future__ import annotations
+
+import math
+import textwrap
+from fractions import Fraction
+from typing import Any
+
+from obvert.emit.canonical import canonical_sha256
+from obvert.emit.filters import INT32_MAX, INT32_MIN, num
+from obvert.emit.profile import TargetProfile
+from obvert.emit.validate import EmitError
+from obvert.table.lookup import (
+    LookupStatus,
+    start_temp_axis_cc,
+    start_temp_axis_f32,
+    thickness_axis_mm_f32,
+    thickness_axis_um,
+)
+
+__all__ = ["c_context"]
+
+_TIME_MAX = {"uint16_t": 2**16 - 1, "uint32_t": 2**32 - 1}
+_TIME_BYTES = {"uint16_t": 2, "uint32_t": 4}
+_MAX_AXIS = 2**16 - 1  # i, j and node index are uint16_t in the schedule struct
+_WRAP = 74
+_STATUS_DOC = {
+    LookupStatus.OK: "a node was found; *out is filled",
+    LookupStatus.NULL_OUT: "out is NULL",
+    LookupStatus.NAN: "an input is NaN (binary32 targets only)",
+    LookupStatus.THICKNESS_BELOW: "thickness below the first axis value",
+    LookupStatus.THICKNESS_ABOVE: "thickness above the last axis value",
+    LookupStatus.START_TEMP_BELOW: "start temperature below the first axis value",
+    LookupStatus.START_TEMP_ABOVE: "start temperature above the last axis value",
+}
+
+
+def _status_macros() -> list[tuple[str, int, str]]:
+    """``(macro suffix, value, meaning)`` of each status code."""
+    out = []
+    for status in LookupStatus:
+        suffix = "OK" if status is LookupStatus.OK else f"ERR_{status.name}"
+        out.append((suffix, int(status), _STATUS_DOC[status]))
+    return out
+
+
+def _tick_us(manifest: dict[str, Any]) -> int:
+    tick_s = float(manifest["tick_s"])
+    tick_us = round(tick_s * 1e6)
+    if tick_us < 1 or abs(tick_s * 1e6 - tick_us) > 1e-6 * max(1, tick_us):
+        raise EmitError(
+            f"manifest field tick_s = {tick_s!r}: a C target needs a whole number of "
+            "microseconds >= 1"
+        )
+    return tick_us
+
+
+def _check_tick(manifest: dict[str, Any], target: TargetProfile) -> None:
+    tick_s = float(manifest["tick_s"])
+    if target.tick_s is not None and not math.isclose(tick_s, target.tick_s, rel_tol=1e-12):
+        raise EmitError(
+            f"manifest field tick_s = {tick_s!r} differs from the target's tick_s = "
+            f"{target.tick_s!r} ({target.source}); rebuild the table for the target's tick"
+        )
+
+
+def _margin_mlog(node: dict[str, Any], k: int) -> int:
+    """Margin in milli-log10 units, rounded down (never over-states the margin)."""
+    value = math.floor(Fraction(node["margin_log"]) * 1000)
+    if not INT32_MIN <= value <= INT32_MAX:
+        raise EmitError(f"manifest field nodes[{k}].margin_log = {node['margin_log']!r}: too big")
+    return value
+
+
+def _node_rows(manifest: dict[str, Any], target: TargetProfile) -> list[dict[str, Any]]:
+    """One row per node: events padded with copies of ``done`` up to ``max_events``."""
+    kinds = manifest["event_kinds"]
+    width = int(manifest["max_events"])
+    t_max = _TIME_MAX[target.time_type]
+    rows = []
+    for k, node in enumerate(manifest["nodes"]):
+        codes = [int(kinds[e["kind"]]) for e in node["events"]]
+        ticks = [int(e["at_ticks"]) for e in node["events"]]
+        if ticks[-1] > t_max:
+            raise EmitError(
+                f"manifest field nodes[{k}].events[-1].at_ticks = {ticks[-1]}: exceeds "
+                f"{target.time_type} ({t_max}) of target {target.name!r}"
+            )
+        pad = width - len(codes)
+        rows.append(
+            {
+                "index": k,
+                "i": int(node["i"]),
+                "j": int(node["j"]),
+                "count": len(codes),
+                "kinds": codes + [codes[-1]] * pad,
+                "ticks": ticks + [ticks[-1]] * pad,
+                "margin_mlog": _margin_mlog(node, k),
+            }
+        )
+    return rows
+
+
+def _axes(manifest: dict[str, Any], fixed: bool) -> tuple[list[Any], list[Any]]:
+    try:
+        if fixed:
+            x = [int(v) for v in thickness_axis_um(manifest)]
+            t = [int(v) for v in start_temp_axis_cc(manifest)]
+        else:
+            x = list(thickness_axis_mm_f32(manifest))
+            t = list(start_temp_axis_f32(manifest))
+    except ValueError as exc:
+        raise EmitError(f"manifest field {exc}") from None
+    for name, axis in (("thickness_m", x), ("start_temp_c", t)):
+        if len(axis) > _MAX_AXIS:
+            raise EmitError(f"manifest field axes.{name} has {len(axis)} values; max {_MAX_AXIS}")
+    return x, t
+
+
+def _data_bytes(n_x: int, n_t: int, n_nodes: int, width: int, time_type: str) -> int:
+    """Bytes of the const arrays, as ``sizeof`` sums them in the header (no padding)."""
+    axes = 4 * (n_x + n_t)  # float or int32_t
+    per_node = 1 + width * (1 + _TIME_BYTES[time_type]) + 4  # count, kinds, ticks, margin
+    return axes + n_nodes * per_node
+
+
+def _wrap(text: str) -> list[str]:
+    return textwrap.wrap(" ".join(str(text).split()), _WRAP) or [""]
+
+
+def _banner(manifest: dict[str, Any], target: TargetProfile, fixed: bool) -> list[str]:
+    """Comment lines of the header banner (no timestamp: the header is reproducible)."""
+    gen, table, safety = manifest["generator"], manifest["table"], manifest["safety"]
+    env, rule = manifest["envelope"], manifest["lookup_rule"]
+    inputs = (
+        "int32 thickness in micrometres, int32 start temperature in 0.01 degC"
+        if fixed
+        else "binary32 thickness in mm, binary32 start temperature in degC"
+    )
+    min_temp = (
+        "no minimum core temperature"
+        if safety["min_temp_c"] is None
+        else f"minimum core temperature {num(safety['min_temp_c'])} degC"
+    )
+    lines = [
+        *_wrap(f"{table['name']}: {table['title']}"),
+        "",
+        f"Cook-program lookup table generated by {gen['name']} {gen['version']}.",
+        "Generated file: do not edit; rebuild it from the spec instead.",
+        *_wrap(f"Target profile: {target.name} ({target.description})"),
+        f"Spec sha256:     {manifest['spec_hash']}",
+        f"Manifest sha256: {canonical_sha256(manifest)}",
+        "",
+        "FOOD-SAFETY CAUTION:",
+        *_wrap(manifest["caution"]),
+        "",
+        *_wrap(
+            f"Safety target: {num(safety['target_log_reduction'])} log10 reduction of "
+            f"{safety['organism']} (D {num(safety['d_ref_s'])} s at {num(safety['t_ref_c'])} "
+            f"degC, z {num(safety['z_c'])} K; source: {safety['source']}); {min_temp}."
+        ),
+        *_wrap(
+            f"Envelope: thickness {num(env['thickness_m'][0])} to {num(env['thickness_m'][1])}"
+            f" m, start temperature {num(env['start_temp_c'][0])} to "
+            f"{num(env['start_temp_c'][1])} degC."
+        ),
+        *_wrap(f"Lookup rule: {rule['name']}: {rule['description']}"),
+        *_wrap(f"Lookup inputs: {inputs}."),
+    ]
+    return lines
+
+
+def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]:
+    """Template context of a C header for ``manifest`` on ``target``.
+
+    Parameters
+    ----------
+    manifest : dict
+        A manifest already checked by :func:`obvert.emit.validate.check_manifest`.
+    target : TargetProfile
+        The C target.
+
+    Returns
+    -------
+    dict
+        Names, data rows and sizes for the template (numbers unformatted: the template
+        formats each through a filter).
+
+    Raises
+    ------
+    EmitError
+        If the table does not fit the target (ticks, tick length, byte budget, axis size).
+    """
+    _check_tick(manifest, target)
+    fixed = target.number_format == "fixed"
+    prefix = target.prefix_for(manifest["table"]["name"])
+    axis_x, axis_t = _axes(manifest, fixed)
+    nodes = _node_rows(manifest, target)
+    x_unit, t_unit = ("um", "cdegC") if fixed else ("mm", "degC")
+    for row in nodes:
+        x, t = axis_x[row["i"]], axis_t[row["j"]]
+        row["label"] = f"{num(x)} {x_unit}, {num(t)} {t_unit}"
+    width = int(manifest["max_events"])
+    data_bytes = _data_bytes(len(axis_x), len(axis_t), len(nodes), width, target.time_type)
+    budget = target.flash_budget_bytes
+    if budget is not None and data_bytes > budget:
+        raise EmitError(
+            f"table {manifest['table']['name']!r} needs {data_bytes} bytes of const data; "
+            f"target {target.name!r} allows flash_budget_bytes = {budget} ({target.source})"
+        )
+    kinds = sorted(manifest["event_kinds"].items(), key=lambda kv: kv[1])
+    return {
+        "p": prefix,
+        "P": prefix.upper(),
+        "guard": f"OBVERT_{prefix.upper()}_H",
+        "banner": _banner(manifest, target, fixed),
+        "spec_hash": manifest["spec_hash"],
+        "format_version": int(manifest["format_version"]),
+        "fixed": fixed,
+        "axis_type": "int32_t" if fixed else "float",
+        "thickness_arg": "thickness_um" if fixed else "thickness_mm",
+        "start_temp_arg": "start_temp_cc" if fixed else "start_temp_c",
+        "time_type": target.time_type,
+        "tick_us": _tick_us(manifest),
+        "axis_thickness": axis_x,
+        "axis_start_temp": axis_t,
+        "event_kinds": [(name.upper(), int(code)) for name, code in kinds],
+        "statuses": _status_macros(),
+        "max_events": width,
+        "nodes": nodes,
+        "data_bytes": data_bytes,
+        "budget": budget,
+    }

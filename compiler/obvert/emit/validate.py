@@ -1,0 +1,205 @@
+"""Checks of a canonical manifest before anything is rendered from it.
+
+Only the fields the emitter reads are checked; extra fields are allowed and passed through
+to the JSON output untouched.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from collections.abc import Mapping
+from typing import Any
+
+from obvert.table.lookup import start_temp_axis_f32, thickness_axis_mm_f32
+
+__all__ = ["SUPPORTED_FORMAT_VERSIONS", "EmitError", "check_manifest"]
+
+SUPPORTED_FORMAT_VERSIONS = (1,)
+_IDENT = re.compile(r"[a-z][a-z0-9_]*\Z")
+_HEX64 = re.compile(r"[0-9a-f]{64}\Z")
+_NODE_NUMBERS = ("margin_log", "min_log_reduction")
+
+
+class EmitError(ValueError):
+    """The manifest or the target cannot be emitted; the message names field and value."""
+
+
+def _fail(field: str, value: Any, allowed: str) -> EmitError:
+    return EmitError(f"manifest field {field} = {value!r}: {allowed}")
+
+
+def _get(obj: Any, key: str, field: str) -> Any:
+    if not isinstance(obj, Mapping):
+        raise _fail(field.rsplit(".", 1)[0] or "$", obj, "expected an object")
+    if key not in obj:
+        raise EmitError(f"manifest field {field} is missing")
+    return obj[key]
+
+
+def _int(obj: Any, key: str, field: str, lo: int = 0) -> int:
+    value = _get(obj, key, field)
+    if isinstance(value, bool) or not isinstance(value, int) or value < lo:
+        raise _fail(field, value, f"expected an integer >= {lo}")
+    return value
+
+
+def _num(obj: Any, key: str, field: str, *, positive: bool = False) -> float:
+    value = _get(obj, key, field)
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not math.isfinite(value):
+        raise _fail(field, value, "expected a finite number")
+    if positive and value <= 0:
+        raise _fail(field, value, "expected a number > 0")
+    return float(value)
+
+
+def _text(obj: Any, key: str, field: str) -> str:
+    value = _get(obj, key, field)
+    if not isinstance(value, str) or not value.strip():
+        raise _fail(field, value, "expected non-empty text")
+    return value
+
+
+def check_manifest(manifest: Any) -> None:
+    """Raise :class:`EmitError` unless ``manifest`` has every field the emitter reads.
+
+    Parameters
+    ----------
+    manifest : dict
+        Canonical manifest (see the package documentation for the schema).
+
+    Raises
+    ------
+    EmitError
+        Naming the first offending field, its value and what is allowed.
+    """
+    if not isinstance(manifest, dict):
+        raise _fail("$", type(manifest).__name__, "expected a dict")
+    version = _get(manifest, "format_version", "format_version")
+    if isinstance(version, bool) or version not in SUPPORTED_FORMAT_VERSIONS:
+        raise _fail("format_version", version, f"supported {list(SUPPORTED_FORMAT_VERSIONS)}")
+    generator = _get(manifest, "generator", "generator")
+    _text(generator, "name", "generator.name")
+    _text(generator, "version", "generator.version")
+    _text(manifest, "caution", "caution")
+    table = _get(manifest, "table", "table")
+    name = _text(table, "name", "table.name")
+    if not _IDENT.match(name):
+        raise _fail("table.name", name, "expected [a-z][a-z0-9_]*")
+    _text(table, "title", "table.title")
+    spec_hash = _text(manifest, "spec_hash", "spec_hash")
+    if not _HEX64.match(spec_hash):
+        raise _fail("spec_hash", spec_hash, "expected 64 lower-case hex digits (sha256)")
+    _get(manifest, "spec", "spec")
+    _num(manifest, "tick_s", "tick_s", positive=True)
+    _check_axes(manifest)
+    _check_info(manifest)
+    _check_event_kinds(manifest)
+    _check_nodes(manifest)
+
+
+def _check_axes(manifest: Mapping[str, Any]) -> None:
+    _get(manifest, "axes", "axes")
+    try:
+        thickness_axis_mm_f32(manifest)
+        start_temp_axis_f32(manifest)
+    except ValueError as exc:
+        raise EmitError(f"manifest field {exc}") from None
+
+
+def _check_info(manifest: Mapping[str, Any]) -> None:
+    """Fields only quoted in comments: lookup rule, envelope, safety target."""
+    rule = _get(manifest, "lookup_rule", "lookup_rule")
+    if _text(rule, "name", "lookup_rule.name") != "conservative_corner":
+        raise _fail("lookup_rule.name", rule["name"], "supported: 'conservative_corner'")
+    _text(rule, "description", "lookup_rule.description")
+    envelope = _get(manifest, "envelope", "envelope")
+    for axis in ("thickness_m", "start_temp_c"):
+        pair = _get(envelope, axis, f"envelope.{axis}")
+        if not isinstance(pair, list) or len(pair) != 2:
+            raise _fail(f"envelope.{axis}", pair, "expected [low, high]")
+        low = _num({"v": pair[0]}, "v", f"envelope.{axis}[0]")
+        high = _num({"v": pair[1]}, "v", f"envelope.{axis}[1]")
+        if low > high:
+            raise _fail(f"envelope.{axis}", pair, "expected low <= high")
+    safety = _get(manifest, "safety", "safety")
+    for key in ("target_log_reduction", "d_ref_s", "t_ref_c", "z_c"):
+        _num(safety, key, f"safety.{key}")
+    _text(safety, "organism", "safety.organism")
+    _text(safety, "source", "safety.source")
+    if _get(safety, "min_temp_c", "safety.min_temp_c") is not None:
+        _num(safety, "min_temp_c", "safety.min_temp_c")
+
+
+def _check_event_kinds(manifest: Mapping[str, Any]) -> None:
+    kinds = _get(manifest, "event_kinds", "event_kinds")
+    if not isinstance(kinds, dict) or "done" not in kinds:
+        raise _fail("event_kinds", kinds, "expected an object of name: code including 'done'")
+    seen: dict[int, str] = {}
+    for kind in kinds:
+        if not isinstance(kind, str) or not _IDENT.match(kind):
+            raise _fail(f"event_kinds.{kind}", kind, "kind names must match [a-z][a-z0-9_]*")
+        code = _int(kinds, kind, f"event_kinds.{kind}")
+        if code > 255 or code in seen:
+            raise _fail(f"event_kinds.{kind}", code, "expected a code 0..255 used once")
+        seen[code] = kind
+
+
+def _check_nodes(manifest: Mapping[str, Any]) -> None:
+    n_x = len(manifest["axes"]["thickness_m"])
+    n_t = len(manifest["axes"]["start_temp_c"])
+    nodes = _get(manifest, "nodes", "nodes")
+    if not isinstance(nodes, list) or len(nodes) != n_x * n_t:
+        count = len(nodes) if isinstance(nodes, list) else nodes
+        raise _fail("nodes", count, f"expected a list of {n_x} * {n_t} = {n_x * n_t} nodes")
+    longest = 0
+    for k, node in enumerate(nodes):
+        longest = max(longest, _check_node(manifest, node, k, n_t))
+    max_events = _int(manifest, "max_events", "max_events", lo=1)
+    if max_events != longest:
+        raise _fail("max_events", max_events, f"the longest node has {longest} events")
+
+
+def _check_node(manifest: Mapping[str, Any], node: Any, k: int, n_t: int) -> int:
+    """Check node ``k``; return its number of events."""
+    field = f"nodes[{k}]"
+    i, j = divmod(k, n_t)
+    for key, want, axis in (("i", i, "thickness_m"), ("j", j, "start_temp_c")):
+        got = _int(node, key, f"{field}.{key}")
+        if got != want:
+            raise _fail(f"{field}.{key}", got, f"node order is i-major: expected {want}")
+        value = _num(node, axis, f"{field}.{axis}")
+        grid = float(manifest["axes"][axis][want])
+        if not math.isclose(value, grid, rel_tol=1e-12, abs_tol=1e-15):
+            raise _fail(f"{field}.{axis}", value, f"expected the axis value {grid!r}")
+    for key in _NODE_NUMBERS:
+        _num(node, key, f"{field}.{key}")
+    events = _get(node, "events", f"{field}.events")
+    if not isinstance(events, list) or not events:
+        raise _fail(f"{field}.events", events, "expected a non-empty list ending in 'done'")
+    previous = 0
+    for n, event in enumerate(events):
+        previous = _check_event(manifest, event, f"{field}.events[{n}]", previous)
+        is_done = event["kind"] == "done"
+        if is_done != (n == len(events) - 1):
+            raise _fail(f"{field}.events[{n}].kind", event["kind"], "'done' must be last, once")
+    return len(events)
+
+
+def _check_event(manifest: Mapping[str, Any], event: Any, field: str, previous: int) -> int:
+    """Check one event; return its tick (times must not decrease)."""
+    kind = _get(event, "kind", f"{field}.kind")
+    if not isinstance(kind, str) or kind not in manifest["event_kinds"]:
+        raise _fail(f"{field}.kind", kind, f"allowed: {sorted(manifest['event_kinds'])}")
+    ticks = _int(event, "at_ticks", f"{field}.at_ticks")
+    at_s = _num(event, "at_s", f"{field}.at_s")
+    tick_s = float(manifest["tick_s"])
+    if abs(ticks * tick_s - at_s) > tick_s * (1.0 + 1e-9):
+        raise _fail(
+            f"{field}.at_ticks",
+            ticks,
+            f"is {ticks * tick_s!r} s, more than one tick ({tick_s!r} s) from at_s = {at_s!r}",
+        )
+    if ticks < previous:
+        raise _fail(f"{field}.at_ticks", ticks, f"events must not go back in time ({previous})")
+    return ticks
