@@ -1,0 +1,135 @@
+"""Direct collocation of one cook phase on the spectral model (Radau IIA, implicit).
+
+Each phase is split into elements whose lengths are fixed fractions of the phase's dwell
+(graded: short elements just after an event, where the surface transient is fast). On
+every element the enthalpy states at the Radau points are decision variables tied by the
+collocation equations; the log reduction is the Radau quadrature of the lethality rate,
+so it needs no states of its own.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import casadi as ca
+import numpy as np
+from numpy.typing import NDArray
+
+from obvert.thermal.boundary import FaceBC
+from obvert.thermal.spectral import SpectralModel, face_flux
+
+
+@dataclass(frozen=True)
+class Grid:
+    """Element layout of a phase.
+
+    Attributes
+    ----------
+    elements : int
+        Elements per phase, -.
+    degree : int
+        Radau collocation points per element, -.
+    grading : float
+        Ratio of consecutive element lengths (> 1: finer after the event), -.
+    """
+
+    elements: int = 8
+    degree: int = 3
+    grading: float = 1.35
+
+    def fractions(self) -> NDArray[np.float64]:
+        """Element lengths as fractions of the phase, summing to 1."""
+        f = self.grading ** np.arange(self.elements)
+        return f / f.sum()
+
+    def stage_times(self) -> NDArray[np.float64]:
+        """Times of all collocation points as fractions of the phase, ascending."""
+        tau = np.array(ca.collocation_points(self.degree, "radau"))
+        f = self.fractions()
+        start = np.concatenate([[0.0], np.cumsum(f)[:-1]])
+        return (start[:, None] + f[:, None] * tau[None, :]).ravel()
+
+
+def radau_coefficients(degree: int) -> tuple[NDArray[np.float64], NDArray[np.float64]]:
+    """Derivative matrix ``c[j, r]`` and quadrature weights ``b[r]`` of Radau IIA.
+
+    ``c[j, r]`` is the derivative at point r of the Lagrange basis polynomial j on the
+    points ``[0, tau_1, ..., tau_d]``; ``b[r]`` integrates over [0, 1].
+    """
+    tau = np.concatenate([[0.0], np.array(ca.collocation_points(degree, "radau"))])
+    c = np.zeros((degree + 1, degree + 1))
+    b = np.zeros(degree + 1)
+    for j in range(degree + 1):
+        p = np.poly1d([1.0])
+        for r in range(degree + 1):
+            if r != j:
+                p *= np.poly1d([1.0, -tau[r]]) / (tau[j] - tau[r])
+        dp = np.polyder(p)
+        for r in range(degree + 1):
+            c[j, r] = dp(tau[r])
+        b[j] = np.polyint(p)(1.0)
+    return c, b
+
+
+class PhaseBlock:
+    """Symbolic collocation of one phase: states, equations, lethality and end state.
+
+    Parameters
+    ----------
+    model : SpectralModel
+        Reduced model.
+    face0, face1 : FaceBC
+        Boundary conditions at x = 0 and x = L during the phase.
+    grid : Grid
+        Element layout.
+    """
+
+    def __init__(self, model: SpectralModel, face0: FaceBC, face1: FaceBC, grid: Grid) -> None:
+        self.model, self.grid = model, grid
+        n, d, m = model.n, grid.degree, grid.elements
+        s = ca.MX.sym("s", n)
+        t = ca.vertcat(*[model.temp_of(s[j]) for j in range(n)])
+        u = ca.vertcat(*[model.kirchhoff_of(s[j]) for j in range(n)])
+        dmat = ca.DM(model.d)
+        q = -ca.mtimes(dmat, u)
+        q = ca.vertcat(face_flux(face0, t[0]), q[1:-1], -face_flux(face1, t[-1]))
+        ds = -ca.mtimes(dmat, q) / model.e_scale
+        lm = model.lethality
+        rate = ca.power(10.0, (ca.fmin(t, lm.cap_c) - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
+        f = ca.Function("f", [s], [ds, rate, t])
+        self.c, self.b = radau_coefficients(d)
+        # One element: start state, stage states (stage-major), length -> residuals, LR gain.
+        xs, zs, h = ca.MX.sym("xs", n), ca.MX.sym("zs", n * d), ca.MX.sym("h")
+        pts = [xs] + [zs[r * n : (r + 1) * n] for r in range(d)]
+        res, lr, t_end = [], 0, None
+        for r in range(1, d + 1):
+            ds_r, rate_r, t_r = f(pts[r])
+            xp = sum(float(self.c[j, r]) * pts[j] for j in range(d + 1))
+            res.append(xp - h * ds_r)
+            lr = lr + h * float(self.b[r]) * rate_r
+            t_end = t_r
+        elem = ca.Function("element", [xs, zs, h], [ca.vertcat(*res), lr, t_end])
+        self._elem = elem.map(m)
+        self.n_stage_vars = n * m * d
+
+    def equations(
+        self, x_start: ca.MX, stages: ca.MX, h_s: ca.MX
+    ) -> tuple[ca.MX, ca.MX, ca.MX, ca.MX]:
+        """Collocation residuals, lab-frame log reduction gained, end state, end temperatures.
+
+        Parameters
+        ----------
+        x_start : MX (n,)
+            Scaled enthalpy at the phase start.
+        stages : MX (n * degree * elements,)
+            Scaled enthalpy at every collocation point: element-major, then stage-major.
+        h_s : MX (1, elements)
+            Element lengths, s (their own variables when the dwell is free, so that the
+            dwell couples to a few equations only and the KKT matrix stays sparse).
+        """
+        n, d, m = self.model.n, self.grid.degree, self.grid.elements
+        z = ca.reshape(stages, n * d, m)
+        ends = z[(d - 1) * n :, :]
+        starts = ca.horzcat(x_start, ends[:, : m - 1])
+        res, lr, t_end = self._elem(starts, z, h_s)
+        return ca.vec(res), ca.sum2(lr), ends[:, m - 1], t_end[:, m - 1]

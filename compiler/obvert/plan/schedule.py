@@ -1,0 +1,135 @@
+"""Cook schedules: the event sequence an appliance runs, and the phases it implies.
+
+A schedule is an ordered list of events (``flip``, ``platen_close``, ``platen_open``, ``done``),
+each at a time in seconds from the moment the food is laid on the plate. Between events the
+boundary conditions of the slab are fixed (a :class:`~obvert.thermal.boundary.Phase`). A flip
+lifts the food at its event time; it spends the appliance's flip air time with both faces in
+air and lands mirrored.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+from obvert.thermal.boundary import FaceBC, Phase
+
+#: Event kinds and their codes in emitted tables. Codes are part of the table format.
+EVENT_CODES: dict[str, int] = {"done": 0, "flip": 1, "platen_close": 2, "platen_open": 3}
+
+
+@dataclass(frozen=True)
+class Event:
+    """One appliance action.
+
+    Attributes
+    ----------
+    kind : str
+        One of :data:`EVENT_CODES`.
+    at_s : float
+        Time of the action from loading, s.
+    """
+
+    kind: str
+    at_s: float
+
+    def __post_init__(self) -> None:
+        if self.kind not in EVENT_CODES:
+            raise ValueError(f"event kind {self.kind!r}: allowed {sorted(EVENT_CODES)}")
+
+
+@dataclass(frozen=True)
+class Surroundings:
+    """What each face of the food sees on a given appliance.
+
+    Attributes
+    ----------
+    plate : FaceBC
+        The lower plate in contact.
+    air : FaceBC
+        Room air with radiation.
+    platen : FaceBC | None
+        The upper platen when closed, if the appliance has one.
+    flip_air_s : float
+        Time the food spends in the air during a flip, s.
+    """
+
+    plate: FaceBC
+    air: FaceBC
+    platen: FaceBC | None
+    flip_air_s: float
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """An ordered event list ending with ``done``.
+
+    Attributes
+    ----------
+    events : tuple of Event
+        Events in time order; the last is ``done``.
+    """
+
+    events: tuple[Event, ...]
+
+    def __post_init__(self) -> None:
+        if not self.events or self.events[-1].kind != "done":
+            raise ValueError("a schedule must end with a 'done' event")
+        times = [e.at_s for e in self.events]
+        if any(b < a for a, b in zip(times, times[1:], strict=False)) or times[0] < 0:
+            raise ValueError(f"event times {times!r}: must be non-negative and non-decreasing")
+
+    @property
+    def done_s(self) -> float:
+        """Cook time (removal from the plate), s."""
+        return self.events[-1].at_s
+
+    @property
+    def flips(self) -> int:
+        """Number of flips."""
+        return sum(e.kind == "flip" for e in self.events)
+
+    def with_done(self, done_s: float) -> Schedule:
+        """Same schedule with the done time moved to ``done_s`` (s)."""
+        return Schedule(self.events[:-1] + (Event("done", done_s),))
+
+
+def phases_for(schedule: Schedule, env: Surroundings, rest_s: float = 0.0) -> list[Phase]:
+    """Phases (fixed boundary conditions) that the slab lives through under ``schedule``.
+
+    Parameters
+    ----------
+    schedule : Schedule
+        Events to run.
+    env : Surroundings
+        Plate, air and platen conditions of the appliance.
+    rest_s : float
+        Time after removal credited as carry-over (both faces in air), s.
+
+    Returns
+    -------
+    list of Phase
+        Phases in order, durations in s.
+    """
+    phases: list[Phase] = []
+    t = 0.0
+    top = env.air
+    for ev in schedule.events:
+        if ev.at_s < t - 1e-9:
+            raise ValueError(
+                f"event {ev.kind} at {ev.at_s:.3f} s falls inside the previous flip "
+                f"(which lands at {t:.3f} s)"
+            )
+        phases.append(Phase(ev.at_s - t, env.plate, top))
+        t = ev.at_s
+        if ev.kind == "flip":
+            phases.append(Phase(env.flip_air_s, env.air, env.air, flip_before=True))
+            t += env.flip_air_s
+        elif ev.kind == "platen_close":
+            if env.platen is None:
+                raise ValueError("schedule closes a platen but the appliance has none")
+            top = env.platen
+        elif ev.kind == "platen_open":
+            top = env.air
+    if rest_s > 0.0:
+        phases.append(Phase(rest_s, env.air, env.air))
+    return [p for p in phases if p.duration_s > 0.0 or p.flip_before]

@@ -1,0 +1,21 @@
+"""The error raised for bad spec input."""
+
+from __future__ import annotations
+
+
+class SpecError(ValueError):
+    """A spec field holds a value that is not allowed.
+
+    Parameters
+    ----------
+    path : str
+        Dotted path of the field, e.g. ``appliance.plate_temperature``.
+    value : object
+        The offending value as given.
+    allowed : str
+        What the field accepts.
+    """
+
+    def __init__(self, path: str, value: object, allowed: str) -> None:
+        self.path, self.value, self.allowed = path, value, allowed
+        super().__init__(f"{path} = {value!r}: allowed {allowed}")

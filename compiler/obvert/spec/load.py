@@ -1,0 +1,343 @@
+"""Reading a spec TOML file into a :class:`~obvert.spec.model.Spec`.
+
+Every dimensional value carries its unit ("12 mm"). Unknown keys are errors. Every error
+names the field path, the value and what is allowed.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+import sys
+from pathlib import Path
+from typing import Any
+
+from obvert.food.choi_okos import Composition
+from obvert.food.presets import PRESETS
+from obvert.spec.errors import SpecError
+from obvert.spec.model import (
+    ApplianceSpec,
+    FoodSpec,
+    GridSpec,
+    MeasuredProperties,
+    PlanningSpec,
+    PropertyValue,
+    SafetySpec,
+    Spec,
+)
+from obvert.spec.units import quantity
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+_NAME = re.compile(r"^[a-z][a-z0-9_]{0,39}$")
+
+
+class _Section:
+    """A TOML table being read: tracks the keys used so leftovers can be refused."""
+
+    def __init__(self, data: object, path: str) -> None:
+        if not isinstance(data, dict):
+            raise SpecError(path, data, "a table")
+        self.data: dict[str, Any] = data
+        self.path = path
+        self.used: set[str] = set()
+
+    def _p(self, key: str) -> str:
+        return f"{self.path}.{key}" if self.path else key
+
+    def has(self, key: str) -> bool:
+        return key in self.data
+
+    def raw(self, key: str, default: object = ...) -> Any:
+        self.used.add(key)
+        if key not in self.data:
+            if default is ...:
+                raise SpecError(self._p(key), None, "a value (the field is required)")
+            return default
+        return self.data[key]
+
+    def section(self, key: str, required: bool = True) -> _Section | None:
+        if not required and key not in self.data:
+            self.used.add(key)
+            return None
+        return _Section(self.raw(key), self._p(key))
+
+    def qty(self, key: str, kind: str, default: object = ...) -> float | None:
+        value = self.raw(key, default)
+        if value is None:
+            return None
+        return quantity(value, self._p(key), kind)
+
+    def number(self, key: str, lo: float, hi: float, default: object = ...) -> float:
+        value = self.raw(key, default)
+        ok = isinstance(value, int | float) and not isinstance(value, bool)
+        if not ok or not math.isfinite(value) or not lo <= value <= hi:
+            raise SpecError(self._p(key), value, f"a number from {lo:g} to {hi:g}")
+        return float(value)
+
+    def integer(self, key: str, lo: int, hi: int, default: object = ...) -> int:
+        value = self.raw(key, default)
+        if not isinstance(value, int) or isinstance(value, bool) or not lo <= value <= hi:
+            raise SpecError(self._p(key), value, f"an integer from {lo} to {hi}")
+        return value
+
+    def text(self, key: str, default: object = ...) -> str:
+        value = self.raw(key, default)
+        if not isinstance(value, str) or not value.strip():
+            raise SpecError(self._p(key), value, "a non-empty string")
+        return value
+
+    def done(self) -> None:
+        extra = sorted(set(self.data) - self.used)
+        if extra:
+            raise SpecError(
+                self._p(extra[0]), self.data[extra[0]], f"one of the known keys {sorted(self.used)}"
+            )
+
+
+def _range_check(path: str, value: float, lo: float, hi: float, unit: str) -> float:
+    if not lo <= value <= hi:
+        raise SpecError(path, value, f"{lo:g} to {hi:g} {unit}")
+    return value
+
+
+def _property(sec: _Section, key: str, kind: str) -> PropertyValue:
+    raw = sec.raw(key)
+    path = sec._p(key)
+    if isinstance(raw, str):
+        return quantity(raw, path, kind)
+    if not isinstance(raw, list) or len(raw) < 2:
+        raise SpecError(path, raw, "a value with a unit, or a list of [temperature, value] pairs")
+    pairs = []
+    for i, item in enumerate(raw):
+        if not isinstance(item, list) or len(item) != 2:
+            raise SpecError(f"{path}[{i}]", item, "a pair [temperature, value]")
+        pairs.append(
+            (
+                quantity(item[0], f"{path}[{i}][0]", "temperature"),
+                quantity(item[1], f"{path}[{i}][1]", kind),
+            )
+        )
+    return tuple(pairs)
+
+
+def _food(sec: _Section) -> FoodSpec:
+    name = sec.text("name")
+    comp_sec = sec.section("composition", required=False)
+    meas_sec = sec.section("measured", required=False)
+    if (comp_sec is None) == (meas_sec is None):
+        raise SpecError(
+            sec.path, sorted(sec.data), "exactly one of [food.composition] or [food.measured]"
+        )
+    fp = sec.qty("freezing_point", "temperature", None)
+    if fp is not None:
+        _range_check(sec._p("freezing_point"), fp, -10.0, 0.0, "degC")
+    comp = measured = None
+    if comp_sec is not None:
+        fr = {k: comp_sec.number(k, 0.0, 1.0, 0.0) for k in ("carbohydrate", "fibre", "ash")}
+        try:
+            comp = Composition(
+                water=comp_sec.number("water", 0.0, 1.0),
+                protein=comp_sec.number("protein", 0.0, 1.0),
+                fat=comp_sec.number("fat", 0.0, 1.0),
+                **fr,
+            )
+        except ValueError as exc:
+            raise SpecError(comp_sec.path, comp_sec.data, str(exc)) from None
+        comp_sec.done()
+    else:
+        assert meas_sec is not None  # noqa: S101 - narrowed above, not user input
+        mfp = meas_sec.qty("freezing_point", "temperature", None)
+        measured = MeasuredProperties(
+            conductivity=_property(meas_sec, "conductivity", "conductivity"),
+            density=_property(meas_sec, "density", "density"),
+            specific_heat=_property(meas_sec, "specific_heat", "specific_heat"),
+            freezing_point_c=mfp,
+            latent_heat_j_per_kg=meas_sec.qty("latent_heat", "specific_energy", "0 J/kg"),
+        )
+        meas_sec.done()
+    sec.done()
+    return FoodSpec(name=name, composition=comp, freezing_point_c=fp, measured=measured)
+
+
+def _axis(sec: _Section, key: str, kind: str, lo: float, hi: float, unit: str) -> tuple[float, ...]:
+    raw = sec.raw(key)
+    path = sec._p(key)
+    if not isinstance(raw, list) or not 1 <= len(raw) <= 64:
+        raise SpecError(path, raw, f"a list of 1 to 64 values with units ({unit})")
+    vals = tuple(
+        _range_check(f"{path}[{i}]", quantity(v, f"{path}[{i}]", kind), lo, hi, unit)
+        for i, v in enumerate(raw)
+    )
+    if any(b <= a for a, b in zip(vals, vals[1:], strict=False)):
+        raise SpecError(path, raw, "strictly ascending values")
+    return vals
+
+
+def _grid(sec: _Section) -> GridSpec:
+    t = _axis(sec, "thickness", "length", 0.002, 0.05, "m (2 to 50 mm)")
+    s = _axis(sec, "start_temperature", "temperature", -40.0, 30.0, "degC")
+    sec.done()
+    return GridSpec(thickness_m=t, start_temp_c=s)
+
+
+def _appliance(sec: _Section) -> ApplianceSpec:
+    kind = sec.text("kind", "flipping_griddle")
+    if kind != "flipping_griddle":
+        raise SpecError(sec._p("kind"), kind, "'flipping_griddle'")
+    q = sec.qty
+    plate = _range_check(
+        sec._p("plate_temperature"), q("plate_temperature", "temperature"), 60.0, 300.0, "degC"
+    )
+    contact = _range_check(
+        sec._p("contact_coefficient"),
+        q("contact_coefficient", "heat_transfer_coefficient"),
+        10.0,
+        5000.0,
+        "W/(m^2*K)",
+    )
+    air_t = _range_check(
+        sec._p("air_temperature"), q("air_temperature", "temperature"), -10.0, 200.0, "degC"
+    )
+    air_h = _range_check(
+        sec._p("air_coefficient"),
+        q("air_coefficient", "heat_transfer_coefficient"),
+        0.0,
+        500.0,
+        "W/(m^2*K)",
+    )
+    flip_air = _range_check(sec._p("flip_air_time"), q("flip_air_time", "time"), 0.1, 30.0, "s")
+    gap = _range_check(sec._p("min_event_gap"), q("min_event_gap", "time"), 0.0, 600.0, "s")
+    tick = _range_check(sec._p("tick"), q("tick", "time"), 0.001, 1.0, "s")
+    out = ApplianceSpec(
+        name=sec.text("name"),
+        kind=kind,
+        plate_temp_c=plate,
+        contact_coefficient=contact,
+        air_temp_c=air_t,
+        air_coefficient=air_h,
+        emissivity=sec.number("emissivity", 0.0, 1.0),
+        flip_air_s=flip_air,
+        min_event_gap_s=gap,
+        max_flips=sec.integer("max_flips", 0, 8),
+        tick_s=tick,
+    )
+    sec.done()
+    return out
+
+
+def _safety(sec: _Section) -> SafetySpec:
+    organism = sec.raw("organism", None)
+    cap = sec.qty("lethality_cap", "temperature", None)
+    if organism is not None:
+        if organism not in PRESETS:
+            raise SpecError(sec._p("organism"), organism, f"one of the presets {sorted(PRESETS)}")
+        for key in ("d_ref", "t_ref", "z", "source"):
+            if sec.has(key):
+                raise SpecError(
+                    sec._p(key), sec.data[key], "nothing when an organism preset is named"
+                )
+        p = PRESETS[organism]
+        d_ref, t_ref, z, source = p.d_ref_s, p.t_ref_c, p.z_c, p.source
+        default_lr: object = p.target_log_reduction
+        name = f"{organism}: {p.organism} in {p.matrix}"
+    else:
+        d_ref = sec.qty("d_ref", "time")
+        t_ref = sec.qty("t_ref", "temperature")
+        z = sec.qty("z", "temperature_difference")
+        source = sec.text("source")
+        name = sec.text("organism_name")
+        default_lr = ...
+        if not (d_ref > 0 and z > 0):
+            raise SpecError(sec.path, {"d_ref": d_ref, "z": z}, "positive D and z values")
+    lr = sec.number("log_reduction", 0.5, 15.0, default_lr)
+    min_t = sec.qty("min_temperature", "temperature", None)
+    if min_t is not None:
+        _range_check(sec._p("min_temperature"), min_t, 40.0, 100.0, "degC")
+    carry = sec.qty("carry_over", "time", None) or 0.0
+    _range_check(sec._p("carry_over"), carry, 0.0, 600.0, "s")
+    cap_c = (
+        90.0 if cap is None else _range_check(sec._p("lethality_cap"), cap, t_ref, 150.0, "degC")
+    )
+    sec.done()
+    return SafetySpec(name, source, lr, float(d_ref), float(t_ref), float(z), min_t, carry, cap_c)
+
+
+def _planning(sec: _Section | None) -> PlanningSpec:
+    if sec is None:
+        sec = _Section({}, "planning")
+    cost = sec.qty("flip_cost", "time", None)
+    out = PlanningSpec(
+        flip_cost_s=_range_check(
+            sec._p("flip_cost"), 0.0 if cost is None else cost, 0.0, 600.0, "s"
+        ),
+        spectral_nodes=sec.integer("spectral_nodes", 6, 32, 12),
+        elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
+        reference_cells=sec.integer("reference_cells", 40, 2000, 200),
+        reference_dt_s=sec.number("reference_dt_s", 0.005, 1.0, 0.05),
+    )
+    sec.done()
+    return out
+
+
+def spec_from_dict(data: dict[str, Any]) -> Spec:
+    """Build a :class:`Spec` from a parsed TOML document.
+
+    Raises
+    ------
+    SpecError
+        A field is missing, unknown or holds a value that is not allowed.
+    """
+    top = _Section(data, "")
+    table = top.section("table")
+    name = table.text("name")
+    if not _NAME.match(name):
+        raise SpecError(
+            "table.name",
+            name,
+            "lower-case letters, digits and '_', starting with a letter, at most 40",
+        )
+    title = table.text("title", name)
+    table.done()
+    food = _food(top.section("food"))
+    grid = _grid(top.section("grid"))
+    appliance = _appliance(top.section("appliance"))
+    safety = _safety(top.section("safety"))
+    planning = _planning(top.section("planning", required=False))
+    out_sec = top.section("outputs", required=False) or _Section({}, "outputs")
+    targets = out_sec.raw("targets", ["c99", "json"])
+    if not isinstance(targets, list) or not targets or not all(isinstance(t, str) for t in targets):
+        raise SpecError("outputs.targets", targets, "a non-empty list of target names")
+    out_sec.done()
+    top.done()
+    if safety.min_temp_c is not None and safety.min_temp_c >= appliance.plate_temp_c:
+        raise SpecError("safety.min_temperature", safety.min_temp_c, "below the plate temperature")
+    return Spec(name, title, food, grid, appliance, safety, planning, tuple(targets))
+
+
+def load_spec(path: str | Path) -> Spec:
+    """Read and check a spec TOML file.
+
+    Raises
+    ------
+    SpecError
+        The file cannot be read or parsed, or a field is not allowed.
+    """
+    p = Path(path)
+    try:
+        text = p.read_text(encoding="utf-8")
+    except OSError as exc:
+        raise SpecError("file", str(p), f"a readable spec file ({exc.strerror})") from None
+    return loads_spec(text, str(p))
+
+
+def loads_spec(text: str, source: str = "<spec>") -> Spec:
+    """Parse spec TOML text (``source`` names it in errors)."""
+    try:
+        data = tomllib.loads(text)
+    except tomllib.TOMLDecodeError as exc:
+        raise SpecError("file", source, f"valid TOML ({exc})") from None
+    return spec_from_dict(data)

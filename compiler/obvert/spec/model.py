@@ -1,0 +1,226 @@
+"""The cook-program spec as frozen dataclasses, SI units (degC for temperatures)."""
+
+from __future__ import annotations
+
+from dataclasses import asdict, dataclass
+
+from obvert.food.choi_okos import Composition
+
+#: A property given as a constant or as (temperature degC, value) pairs.
+PropertyValue = float | tuple[tuple[float, float], ...]
+
+
+@dataclass(frozen=True)
+class MeasuredProperties:
+    """Measured thermal properties of a food (instead of a composition).
+
+    Attributes
+    ----------
+    conductivity : float or tuple of (degC, W/(m K))
+        Thermal conductivity, W/(m K).
+    density : float or tuple of (degC, kg/m^3)
+        Density, kg/m^3.
+    specific_heat : float or tuple of (degC, J/(kg K))
+        Sensible specific heat, J/(kg K).
+    freezing_point_c : float | None
+        Initial freezing point, degC.
+    latent_heat_j_per_kg : float
+        Latent heat released on freezing, J/kg of food.
+    """
+
+    conductivity: PropertyValue
+    density: PropertyValue
+    specific_heat: PropertyValue
+    freezing_point_c: float | None
+    latent_heat_j_per_kg: float
+
+
+@dataclass(frozen=True)
+class FoodSpec:
+    """The food product.
+
+    Attributes
+    ----------
+    name : str
+        Product name.
+    composition : Composition | None
+        Mass fractions (properties by Choi-Okos), or None when ``measured`` is given.
+    freezing_point_c : float | None
+        Initial freezing point for the composition model, degC (None: from water content).
+    measured : MeasuredProperties | None
+        Measured properties, or None when ``composition`` is given.
+    """
+
+    name: str
+    composition: Composition | None
+    freezing_point_c: float | None
+    measured: MeasuredProperties | None
+
+
+@dataclass(frozen=True)
+class GridSpec:
+    """Grid nodes of the table; the first and last nodes bound the certified envelope.
+
+    Attributes
+    ----------
+    thickness_m : tuple of float
+        Thickness nodes, ascending, m.
+    start_temp_c : tuple of float
+        Start-temperature nodes, ascending, degC.
+    """
+
+    thickness_m: tuple[float, ...]
+    start_temp_c: tuple[float, ...]
+
+
+@dataclass(frozen=True)
+class ApplianceSpec:
+    """A flipping griddle.
+
+    Attributes
+    ----------
+    name : str
+        Appliance name.
+    kind : str
+        ``"flipping_griddle"``.
+    plate_temp_c : float
+        Plate surface setpoint, degC.
+    contact_coefficient : float
+        Plate-to-food contact heat-transfer coefficient, W/(m^2 K).
+    air_temp_c : float
+        Air temperature above the food, degC.
+    air_coefficient : float
+        Convective coefficient to air, W/(m^2 K).
+    emissivity : float
+        Emissivity of the food surface, -.
+    flip_air_s : float
+        Time the food spends in the air during a flip, s.
+    min_event_gap_s : float
+        Minimum time between events (and from loading to the first), s.
+    max_flips : int
+        Largest number of flips the appliance performs, -.
+    tick_s : float
+        Firmware timer tick, s.
+    """
+
+    name: str
+    kind: str
+    plate_temp_c: float
+    contact_coefficient: float
+    air_temp_c: float
+    air_coefficient: float
+    emissivity: float
+    flip_air_s: float
+    min_event_gap_s: float
+    max_flips: int
+    tick_s: float
+
+
+@dataclass(frozen=True)
+class SafetySpec:
+    """The lethality target every point of the food must reach by removal.
+
+    Attributes
+    ----------
+    organism : str
+        Organism (and preset name, when a preset was used).
+    source : str
+        Where the kinetics were published.
+    log_reduction : float
+        Required log10 reduction, -.
+    d_ref_s : float
+        D value at ``t_ref_c``, s.
+    t_ref_c : float
+        Reference temperature, degC.
+    z_c : float
+        z value, K.
+    min_temp_c : float | None
+        Temperature every point must be at or above at removal, degC.
+    carry_over_s : float
+        Time after removal credited to lethality (food resting in air), s; 0 means none.
+    lethality_cap_c : float
+        Temperature above which the lethality rate is not increased further, degC.
+    """
+
+    organism: str
+    source: str
+    log_reduction: float
+    d_ref_s: float
+    t_ref_c: float
+    z_c: float
+    min_temp_c: float | None
+    carry_over_s: float
+    lethality_cap_c: float
+
+
+@dataclass(frozen=True)
+class PlanningSpec:
+    """Planner settings.
+
+    Attributes
+    ----------
+    flip_cost_s : float
+        Cook-time equivalent charged per flip when choosing the flip count, s.
+    spectral_nodes : int
+        Chebyshev nodes of the reduced model, -.
+    elements_per_phase : int
+        Collocation elements per phase, -.
+    reference_cells : int
+        Finite-volume cells of the reference model, -.
+    reference_dt_s : float
+        Largest time step of the reference model, s.
+    """
+
+    flip_cost_s: float
+    spectral_nodes: int
+    elements_per_phase: int
+    reference_cells: int
+    reference_dt_s: float
+
+
+@dataclass(frozen=True)
+class Spec:
+    """A whole cook-program spec.
+
+    Attributes
+    ----------
+    name : str
+        Table name: C identifier-safe, used for file names and symbol prefixes.
+    title : str
+        Free-text title.
+    food : FoodSpec
+        The product.
+    grid : GridSpec
+        Table grid and envelope.
+    appliance : ApplianceSpec
+        The appliance.
+    safety : SafetySpec
+        The lethality target.
+    planning : PlanningSpec
+        Planner settings.
+    targets : tuple of str
+        Output target profiles to emit by default.
+    """
+
+    name: str
+    title: str
+    food: FoodSpec
+    grid: GridSpec
+    appliance: ApplianceSpec
+    safety: SafetySpec
+    planning: PlanningSpec
+    targets: tuple[str, ...]
+
+    def to_dict(self) -> dict[str, object]:
+        """JSON-safe nested dict of the spec in SI units (tuples become lists)."""
+        return _jsonable(asdict(self))
+
+
+def _jsonable(obj: object) -> object:
+    if isinstance(obj, dict):
+        return {str(k): _jsonable(v) for k, v in obj.items()}
+    if isinstance(obj, list | tuple):
+        return [_jsonable(v) for v in obj]
+    if isinstance(obj, float) and obj != obj:
+        raise ValueError("NaN in spec")
+    return obj

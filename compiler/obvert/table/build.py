@@ -1,0 +1,205 @@
+"""The grid sweep: plan, quantise and certify every node of the table.
+
+``build(spec) -> CookTable`` is pure: it reads nothing from disk and writes nothing.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+
+from obvert.food.factory import food_table
+from obvert.food.lethality import LethalityModel
+from obvert.plan.collocation import Grid
+from obvert.plan.ocp import PlanError, Planner, Requirement
+from obvert.plan.quantize import quantize, to_ticks
+from obvert.plan.schedule import Schedule, Surroundings
+from obvert.spec.model import Spec
+from obvert.table.certify import Case, CertificationError, certify
+from obvert.thermal.boundary import FaceBC
+from obvert.thermal.reference import ReferenceSettings
+from obvert.thermal.spectral import SpectralModel, SpectralSettings
+
+Progress = Callable[[str], None]
+
+
+class BuildError(RuntimeError):
+    """A grid node could not be planned or certified; nothing may be emitted."""
+
+
+@dataclass(frozen=True)
+class Candidate:
+    """One flip count tried at a node.
+
+    Attributes
+    ----------
+    flips : int
+        Number of flips.
+    planned_cook_time_s : float | None
+        Minimum cook time on the reduced model, s (None: the solve failed).
+    note : str
+        Solver status, or why it failed.
+    """
+
+    flips: int
+    planned_cook_time_s: float | None
+    note: str
+
+
+@dataclass(frozen=True)
+class Node:
+    """A certified table entry.
+
+    Attributes
+    ----------
+    i, j : int
+        Indices on the thickness and start-temperature axes.
+    thickness_m : float
+        Node thickness, m.
+    start_temp_c : float
+        Node start temperature, degC.
+    schedule : Schedule
+        Certified schedule, event times in whole ticks, s.
+    planned_cook_time_s : float
+        Cook time of the chosen plan before quantisation, s.
+    correction_s : float
+        Extension of the done time that certification needed, s.
+    min_log_reduction : float
+        Smallest reference-model log reduction over the slab, log10.
+    margin_log : float
+        ``min_log_reduction`` minus the target, log10 (>= 0).
+    min_temp_at_removal_c : float
+        Coldest point at removal on the reference model, degC.
+    candidates : tuple of Candidate
+        Every flip count tried.
+    """
+
+    i: int
+    j: int
+    thickness_m: float
+    start_temp_c: float
+    schedule: Schedule
+    planned_cook_time_s: float
+    correction_s: float
+    min_log_reduction: float
+    margin_log: float
+    min_temp_at_removal_c: float
+    candidates: tuple[Candidate, ...]
+
+
+@dataclass(frozen=True)
+class CookTable:
+    """A certified cook table: the spec and one node per grid point (i-major).
+
+    Attributes
+    ----------
+    spec : Spec
+        The spec it was built from.
+    nodes : tuple of Node
+        Entries, index ``i * n_temps + j``.
+    """
+
+    spec: Spec
+    nodes: tuple[Node, ...]
+
+
+def surroundings(spec: Spec) -> Surroundings:
+    """Plate, air and flip conditions of the spec's appliance."""
+    a = spec.appliance
+    return Surroundings(
+        plate=FaceBC(a.contact_coefficient, a.plate_temp_c),
+        air=FaceBC(a.air_coefficient, a.air_temp_c, a.emissivity),
+        platen=None,
+        flip_air_s=a.flip_air_s,
+    )
+
+
+def lethality_of(spec: Spec) -> LethalityModel:
+    """Kinetics of the spec's safety target."""
+    s = spec.safety
+    return LethalityModel(s.d_ref_s, s.t_ref_c, s.z_c, cap_c=s.lethality_cap_c)
+
+
+def requirement_of(spec: Spec) -> Requirement:
+    """Safety requirement at removal."""
+    s = spec.safety
+    return Requirement(s.log_reduction, s.min_temp_c, s.carry_over_s)
+
+
+def build(spec: Spec, progress: Progress | None = None) -> CookTable:
+    """Plan, quantise and certify every node of the spec's grid.
+
+    Raises
+    ------
+    BuildError
+        A node has no solvable flip count, or its schedule cannot be certified.
+    """
+    say = progress or (lambda _msg: None)
+    table = food_table(spec.food)
+    env, leth, req = surroundings(spec), lethality_of(spec), requirement_of(spec)
+    ref = ReferenceSettings(spec.planning.reference_cells, spec.planning.reference_dt_s)
+    nodes: list[Node] = []
+    n_t, n_s = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
+    for i, thick in enumerate(spec.grid.thickness_m):
+        model = SpectralModel(table, thick, leth, SpectralSettings(spec.planning.spectral_nodes))
+        planner = Planner(
+            model, env, req, spec.appliance.min_event_gap_s, Grid(spec.planning.elements_per_phase)
+        )
+        for j, t0 in enumerate(spec.grid.start_temp_c):
+            say(f"node {i * n_s + j + 1}/{n_t * n_s}: {thick * 1e3:g} mm, {t0:g} degC")
+            case = Case(table, thick, t0, env, leth, req, ref)
+            nodes.append(_node(spec, planner, case, i, j))
+    return CookTable(spec, tuple(nodes))
+
+
+def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
+    cell = f"node (thickness {case.thickness_m * 1e3:g} mm, start {case.start_temp_c:g} degC)"
+    cands: list[Candidate] = []
+    best: tuple[float, Schedule] | None = None
+    prev: tuple[float, ...] | None = None
+    for flips in range(spec.appliance.max_flips + 1):
+        seeds = () if prev is None else (_split_last(prev, spec.appliance.flip_air_s),)
+        try:
+            res = planner.solve(("flip",) * flips, case.start_temp_c, seeds)
+        except PlanError as exc:
+            cands.append(Candidate(flips, None, str(exc)))
+            prev = None
+            continue
+        prev = res.dwell_s
+        cands.append(Candidate(flips, res.cook_time_s, res.solver_status))
+        cost = res.cook_time_s + flips * spec.planning.flip_cost_s
+        if best is None or cost < best[0] - 1e-9:
+            best = (cost, res.schedule)
+    if best is None:
+        raise BuildError(
+            f"{cell}: no flip count could be planned: " + "; ".join(c.note for c in cands)
+        )
+    plan = best[1]
+    a = spec.appliance
+    ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
+    try:
+        cert = certify(case, ticked, a.tick_s)
+    except CertificationError as exc:
+        raise BuildError(f"{cell}: {exc}") from None
+    for ev in cert.schedule.events:  # every emitted time is a whole tick
+        if abs(to_ticks(ev.at_s, a.tick_s) * a.tick_s - ev.at_s) > 1e-9:
+            raise BuildError(f"{cell}: event {ev.kind} at {ev.at_s} s is not a whole tick")
+    return Node(
+        i=i,
+        j=j,
+        thickness_m=case.thickness_m,
+        start_temp_c=case.start_temp_c,
+        schedule=cert.schedule,
+        planned_cook_time_s=plan.done_s,
+        correction_s=cert.correction_s,
+        min_log_reduction=cert.verdict.min_log_reduction,
+        margin_log=cert.margin_log,
+        min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
+        candidates=tuple(cands),
+    )
+
+
+def _split_last(dwell: tuple[float, ...], flip_air_s: float) -> tuple[float, ...]:
+    """Seed for one more flip: the previous optimum with its last dwell cut in two, s."""
+    last = dwell[-1]
+    return (*dwell[:-1], 0.5 * last, max(0.5 * last - flip_air_s, 0.0))

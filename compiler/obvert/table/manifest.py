@@ -1,0 +1,110 @@
+"""The canonical manifest of a cook table: the one dict every output format is a view of."""
+
+from __future__ import annotations
+
+from typing import Any
+
+from obvert import CAUTION, __version__
+from obvert.emit import canonical_sha256
+from obvert.plan.quantize import to_ticks
+from obvert.plan.schedule import EVENT_CODES
+from obvert.table.build import CookTable, Node
+
+FORMAT_VERSION = 1
+
+LOOKUP_RULE = {
+    "name": "conservative_corner",
+    "description": (
+        "For a measured thickness x and start temperature t inside the envelope, take "
+        "i = the smallest index with thickness_m[i] >= x and j = the largest index with "
+        "start_temp_c[j] <= t, and run node i * n_start_temp + j: the thickest and coldest "
+        "corner of the cell that holds (x, t). A value on a node uses that node. Outside "
+        "the envelope, or NaN, no schedule is returned."
+    ),
+}
+
+#: Digits kept for times (s) and log reductions; fixed so builds are byte-identical.
+_DIGITS = 6
+
+
+def _r(x: float) -> float:
+    return round(float(x), _DIGITS)
+
+
+def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
+    events = [
+        {"kind": e.kind, "at_s": _r(e.at_s), "at_ticks": to_ticks(e.at_s, tick_s)}
+        for e in node.schedule.events
+    ]
+    return {
+        "i": node.i,
+        "j": node.j,
+        "thickness_m": _r(node.thickness_m),
+        "start_temp_c": _r(node.start_temp_c),
+        "flips": node.schedule.flips,
+        "events": events,
+        "cook_time_s": _r(node.schedule.done_s),
+        "cook_ticks": to_ticks(node.schedule.done_s, tick_s),
+        "planned_cook_time_s": _r(node.planned_cook_time_s),
+        "correction_s": _r(node.correction_s),
+        "min_log_reduction": _r(node.min_log_reduction),
+        "margin_log": _r(node.margin_log),
+        "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
+        "candidates": [
+            {
+                "flips": c.flips,
+                "planned_cook_time_s": None
+                if c.planned_cook_time_s is None
+                else _r(c.planned_cook_time_s),
+                "note": c.note,
+            }
+            for c in node.candidates
+        ],
+    }
+
+
+def manifest(table: CookTable) -> dict[str, Any]:
+    """Canonical, JSON-safe description of ``table`` (schema in docs/table-format.md)."""
+    spec = table.spec
+    spec_dict = spec.to_dict()
+    tick = spec.appliance.tick_s
+    nodes = [_node_dict(n, tick) for n in table.nodes]
+    margins = [n["margin_log"] for n in nodes]
+    s = spec.safety
+    return {
+        "format_version": FORMAT_VERSION,
+        "generator": {"name": "obvert", "version": __version__},
+        "caution": CAUTION,
+        "table": {"name": spec.name, "title": spec.title},
+        "spec": spec_dict,
+        "spec_hash": canonical_sha256(spec_dict),
+        "tick_s": tick,
+        "axes": {
+            "thickness_m": [_r(v) for v in spec.grid.thickness_m],
+            "start_temp_c": [_r(v) for v in spec.grid.start_temp_c],
+        },
+        "envelope": {
+            "thickness_m": [_r(spec.grid.thickness_m[0]), _r(spec.grid.thickness_m[-1])],
+            "start_temp_c": [_r(spec.grid.start_temp_c[0]), _r(spec.grid.start_temp_c[-1])],
+        },
+        "lookup_rule": dict(LOOKUP_RULE),
+        "event_kinds": dict(EVENT_CODES),
+        "max_events": max(len(n["events"]) for n in nodes),
+        "safety": {
+            "target_log_reduction": s.log_reduction,
+            "organism": s.organism,
+            "source": s.source,
+            "d_ref_s": s.d_ref_s,
+            "t_ref_c": s.t_ref_c,
+            "z_c": s.z_c,
+            "min_temp_c": s.min_temp_c,
+            "carry_over_s": s.carry_over_s,
+            "lethality_cap_c": s.lethality_cap_c,
+        },
+        "nodes": nodes,
+        "summary": {
+            "smallest_margin_log": min(margins),
+            "nodes_corrected": sum(1 for n in nodes if n["correction_s"] > 0.0),
+            "longest_cook_time_s": max(n["cook_time_s"] for n in nodes),
+        },
+    }

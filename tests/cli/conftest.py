@@ -1,0 +1,35 @@
+"""One build of the small test spec through the CLI, shared by the end-to-end tests."""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass
+from pathlib import Path
+
+import pytest
+from click.testing import CliRunner
+from obvert.cli import main
+
+SPEC = Path(__file__).with_name("small_spec.toml")
+
+
+@dataclass(frozen=True)
+class Built:
+    out: Path
+    stdout: str
+    manifest: dict
+
+
+def run_build(out: Path, *extra: str) -> tuple[int, str, str]:
+    runner = CliRunner()
+    res = runner.invoke(main, ["build", str(SPEC), "--out", str(out), *extra])
+    return res.exit_code, res.stdout, res.stderr
+
+
+@pytest.fixture(scope="session")
+def built(tmp_path_factory: pytest.TempPathFactory) -> Built:
+    out = tmp_path_factory.mktemp("build")
+    code, stdout, stderr = run_build(out, "--target", "c99", "--target", "json")
+    assert code == 0, stderr
+    m = json.loads((out / "test_patty.json").read_text())
+    return Built(out, stdout, m)

@@ -1,0 +1,144 @@
+"""End to end through the CLI: build the small spec, check outputs, errors and determinism."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+from click.testing import CliRunner
+from obvert import CAUTION, __version__
+from obvert.cli import main
+
+from .conftest import SPEC, run_build
+
+
+def test_version_and_help() -> None:
+    runner = CliRunner()
+    res = runner.invoke(main, ["--version"])
+    assert res.exit_code == 0 and __version__ in res.stdout
+    res = runner.invoke(main, ["--help"])
+    assert res.exit_code == 0 and "build" in res.stdout
+    res = runner.invoke(main, ["build", "--help"])
+    assert res.exit_code == 0 and "--target" in res.stdout
+
+
+def test_build_writes_header_and_json(built) -> None:
+    names = sorted(p.name for p in built.out.iterdir())
+    assert names == ["test_patty.h", "test_patty.json"]
+    header = (built.out / "test_patty.h").read_text()
+    assert "#ifndef" in header and "test_patty_lookup" in header
+    assert "validated by temperature measurement" in header
+    assert built.manifest["caution"] == CAUTION
+
+
+def test_summary_has_one_row_per_node(built) -> None:
+    rows = [ln for ln in built.stdout.splitlines() if ln.strip().startswith(("6.00", "10.00"))]
+    assert len(rows) == 4
+    assert "smallest margin" in built.stdout
+    assert "caution:" in built.stdout
+
+
+def test_every_node_certified_with_nonnegative_margin(built) -> None:
+    target = built.manifest["safety"]["target_log_reduction"]
+    for node in built.manifest["nodes"]:
+        assert node["margin_log"] >= 0.0
+        assert node["min_log_reduction"] >= target
+        assert node["min_temp_at_removal_c"] >= 71.0
+        ticks = [e["at_ticks"] for e in node["events"]]
+        assert ticks == sorted(ticks) and node["events"][-1]["kind"] == "done"
+
+
+def test_frozen_start_takes_longer_than_chilled(built) -> None:
+    by = {(n["i"], n["j"]): n for n in built.manifest["nodes"]}
+    for i in range(2):
+        frozen, chilled = by[(i, 0)], by[(i, 1)]
+        assert frozen["start_temp_c"] < chilled["start_temp_c"]
+        # A frozen patty must thaw first (latent heat): clearly longer, not marginally.
+        assert frozen["cook_time_s"] > 1.2 * chilled["cook_time_s"]
+
+
+def test_more_flips_never_slower(built) -> None:
+    for node in built.manifest["nodes"]:
+        times = [c["planned_cook_time_s"] for c in node["candidates"]]
+        assert all(t is not None for t in times), node["candidates"]
+        for fewer, more in zip(times, times[1:], strict=False):
+            # The optimiser may place an extra flip anywhere; it must never cost time beyond
+            # the solver tolerance (0.1 s).
+            assert more <= fewer + 0.1, times
+
+
+def test_thicker_takes_longer(built) -> None:
+    by = {(n["i"], n["j"]): n for n in built.manifest["nodes"]}
+    for j in range(2):
+        assert by[(1, j)]["cook_time_s"] > by[(0, j)]["cook_time_s"]
+
+
+def test_building_twice_gives_identical_bytes(built, tmp_path: Path) -> None:
+    code, _, stderr = run_build(tmp_path, "--target", "c99", "--target", "json", "--quiet")
+    assert code == 0, stderr
+    for name in ("test_patty.h", "test_patty.json"):
+        assert (tmp_path / name).read_bytes() == (built.out / name).read_bytes()
+
+
+def _bad_spec(tmp_path: Path, old: str, new: str) -> Path:
+    text = SPEC.read_text()
+    assert old in text
+    p = tmp_path / "bad.toml"
+    p.write_text(text.replace(old, new))
+    return p
+
+
+def _invoke(spec: Path, out: Path) -> tuple[int, str]:
+    res = CliRunner().invoke(main, ["build", str(spec), "--out", str(out)])
+    return res.exit_code, res.stderr
+
+
+def test_bad_unit_is_exit_2_and_names_field(tmp_path: Path) -> None:
+    spec = _bad_spec(tmp_path, 'plate_temperature = "190 degC"', 'plate_temperature = "190 kg"')
+    code, err = _invoke(spec, tmp_path / "out")
+    assert code == 2
+    assert "appliance.plate_temperature" in err and "190 kg" in err
+    assert not (tmp_path / "out").exists()
+
+
+def test_unknown_key_is_exit_2(tmp_path: Path) -> None:
+    spec = _bad_spec(tmp_path, "max_flips = 2", "max_flips = 2\nflip_speed = 3")
+    code, err = _invoke(spec, tmp_path / "out")
+    assert code == 2 and "appliance.flip_speed" in err
+
+
+def test_bare_number_without_unit_is_refused(tmp_path: Path) -> None:
+    spec = _bad_spec(tmp_path, 'tick = "100 ms"', "tick = 0.1")
+    code, err = _invoke(spec, tmp_path / "out")
+    assert code == 2 and "appliance.tick" in err and "unit" in err
+
+
+def test_out_of_range_value_names_allowed_range(tmp_path: Path) -> None:
+    spec = _bad_spec(tmp_path, "emissivity = 0.9", "emissivity = 1.7")
+    code, err = _invoke(spec, tmp_path / "out")
+    assert code == 2 and "appliance.emissivity" in err and "0 to 1" in err
+
+
+def test_unknown_target_is_exit_2(tmp_path: Path) -> None:
+    res = CliRunner().invoke(
+        main, ["build", str(SPEC), "--out", str(tmp_path / "o"), "--target", "pdp11"]
+    )
+    assert res.exit_code == 2 and "pdp11" in res.stderr
+    assert not (tmp_path / "o").exists()
+
+
+def test_unreachable_target_is_exit_1_and_writes_nothing(tmp_path: Path) -> None:
+    # A plate at 100 degC cannot bring the face in air to 99.9 degC: no plan exists.
+    text = SPEC.read_text()
+    text = text.replace('plate_temperature = "190 degC"', 'plate_temperature = "100 degC"')
+    text = text.replace('min_temperature = "71 degC"', 'min_temperature = "99.9 degC"')
+    text = text.replace('thickness = ["6 mm", "10 mm"]', 'thickness = ["6 mm"]')
+    text = text.replace(
+        'start_temperature = ["-18 degC", "4 degC"]', 'start_temperature = ["4 degC"]'
+    )
+    text = text.replace("max_flips = 2", "max_flips = 0")
+    p = tmp_path / "impossible.toml"
+    p.write_text(text)
+    code, err = _invoke(p, tmp_path / "out")
+    assert code == 1
+    assert "6 mm" in err and "4 degC" in err and "nothing was written" in err
+    assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
