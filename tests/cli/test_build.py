@@ -8,7 +8,7 @@ from click.testing import CliRunner
 from obvert import CAUTION, __version__
 from obvert.cli import main
 
-from .conftest import SPEC, run_build
+from .helpers import SPEC, run_build
 
 
 def test_version_and_help() -> None:
@@ -26,7 +26,8 @@ def test_build_writes_header_and_json(built) -> None:
     assert names == ["test_patty.h", "test_patty.json"]
     header = (built.out / "test_patty.h").read_text()
     assert "#ifndef" in header and "test_patty_lookup" in header
-    assert "validated by temperature measurement" in header
+    banner = " ".join(ln.strip(" */") for ln in header.split("*/")[0].splitlines())
+    assert " ".join(CAUTION.split()) in " ".join(banner.split())
     assert built.manifest["caution"] == CAUTION
 
 

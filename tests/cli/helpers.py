@@ -1,4 +1,4 @@
-"""One build of the small test spec through the CLI, shared by the end-to-end tests."""
+"""Building the small test spec through the CLI (shared by tests/conftest.py and tests/cli)."""
 
 from __future__ import annotations
 
@@ -6,7 +6,6 @@ import json
 from dataclasses import dataclass
 from pathlib import Path
 
-import pytest
 from click.testing import CliRunner
 from obvert.cli import main
 
@@ -26,9 +25,7 @@ def run_build(out: Path, *extra: str) -> tuple[int, str, str]:
     return res.exit_code, res.stdout, res.stderr
 
 
-@pytest.fixture(scope="session")
-def built(tmp_path_factory: pytest.TempPathFactory) -> Built:
-    out = tmp_path_factory.mktemp("build")
+def build_once(out: Path) -> Built:
     code, stdout, stderr = run_build(out, "--target", "c99", "--target", "json")
     assert code == 0, stderr
     m = json.loads((out / "test_patty.json").read_text())

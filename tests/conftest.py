@@ -1,0 +1,22 @@
+"""Session fixtures shared across test folders."""
+
+from __future__ import annotations
+
+import importlib.util
+import sys
+from pathlib import Path
+
+import pytest
+
+_SPEC = importlib.util.spec_from_file_location(
+    "obvert_tests_cli_helpers", Path(__file__).with_name("cli") / "helpers.py"
+)
+helpers = importlib.util.module_from_spec(_SPEC)
+sys.modules[_SPEC.name] = helpers
+_SPEC.loader.exec_module(helpers)
+
+
+@pytest.fixture(scope="session")
+def built(tmp_path_factory: pytest.TempPathFactory):
+    """The small test spec built once through the CLI: output folder, stdout, manifest."""
+    return helpers.build_once(tmp_path_factory.mktemp("build"))
