@@ -1,0 +1,1 @@
+"""Built-in target profiles (shipped as package data)."""

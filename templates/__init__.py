@@ -1,0 +1,1 @@
+"""Jinja2 templates of the emitted files (shipped as package data)."""

@@ -17,6 +17,7 @@ from fractions import Fraction
 
 import numpy as np
 import pytest
+
 from obvert.emit import emit, load_target
 from obvert.table.lookup import (
     LookupResult,

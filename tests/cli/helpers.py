@@ -7,6 +7,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from click.testing import CliRunner
+
 from obvert.cli import main
 
 SPEC = Path(__file__).with_name("small_spec.toml")

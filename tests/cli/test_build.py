@@ -5,6 +5,7 @@ from __future__ import annotations
 from pathlib import Path
 
 from click.testing import CliRunner
+
 from obvert import CAUTION, __version__
 from obvert.cli import main
 

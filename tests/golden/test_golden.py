@@ -13,6 +13,7 @@ import random
 from pathlib import Path
 
 import pytest
+
 from obvert.emit import canonical_json, emit, load_target
 
 GOLDEN = Path(__file__).resolve().parent

@@ -32,11 +32,12 @@ import math
 
 import numpy as np
 import pytest
-from obvert.food.lethality import LethalityModel, log_reduction
-from obvert.food.presets import PRESETS, preset
 from scipy.integrate import quad
 from scipy.optimize import brentq
 from scipy.stats import linregress
+
+from obvert.food.lethality import LethalityModel, log_reduction
+from obvert.food.presets import PRESETS, preset
 
 
 def f_to_c(f: float) -> float:

@@ -28,6 +28,8 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from scipy.integrate import quad
+
 from obvert.food.choi_okos import (
     LATENT_HEAT_FUSION_J_PER_KG,
     Composition,
@@ -36,7 +38,6 @@ from obvert.food.choi_okos import (
     properties_at,
 )
 from obvert.food.measured import latent_release_fraction, measured_table
-from scipy.integrate import quad
 
 LEAN_BEEF = Composition(water=0.718, protein=0.212, fat=0.058, ash=0.012)
 # About 80 % lean ground beef: protein 17.2 %, fat 20 % (USDA composition data, as listed in

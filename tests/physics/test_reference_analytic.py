@@ -17,11 +17,12 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
+from scipy.integrate import quad
+from scipy.optimize import brentq
+
 from obvert.food.table import constant_table
 from obvert.thermal.boundary import FaceBC, Phase
 from obvert.thermal.reference import simulate
-from scipy.integrate import quad
-from scipy.optimize import brentq
 
 K, RHO, CP = 0.5, 1000.0, 4000.0  # W/m/K, kg/m^3, J/kg/K (a water-like solid)
 ALPHA = K / (RHO * CP)

@@ -22,6 +22,7 @@ task's requirement; it allows for the pre-asymptotic range of the coarsest meshe
 from __future__ import annotations
 
 import numpy as np
+
 from obvert.food.table import PropertyTable
 from obvert.thermal.boundary import STEFAN_BOLTZMANN, FaceBC, Phase
 from obvert.thermal.reference import ReferenceSettings, _simulate

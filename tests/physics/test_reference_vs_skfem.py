@@ -30,13 +30,14 @@ from __future__ import annotations
 
 import numpy as np
 import scipy.sparse as sp
+from scipy.sparse.linalg import spsolve
+from skfem import Basis, BilinearForm, ElementLineP2, LinearForm, MeshLine, asm
+from skfem.helpers import dot, grad
+
 from obvert.food.choi_okos import Composition, composition_table
 from obvert.food.table import PropertyTable
 from obvert.thermal.boundary import STEFAN_BOLTZMANN, FaceBC, Phase
 from obvert.thermal.reference import simulate
-from scipy.sparse.linalg import spsolve
-from skfem import Basis, BilinearForm, ElementLineP2, LinearForm, MeshLine, asm
-from skfem.helpers import dot, grad
 
 THICKNESS = 0.012  # m
 START_C = -18.0

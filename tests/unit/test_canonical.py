@@ -17,6 +17,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+
 from obvert.emit import CanonicalError, canonical_json, canonical_sha256
 
 # RFC 8259 section 6: number = [ minus ] int [ frac ] [ exp ]

@@ -18,6 +18,7 @@ import numpy as np
 import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
+
 from obvert.emit import EmitError, TargetProfile, emit, load_target
 from obvert.emit.filters import c_comment, c_float, c_int, c_string, c_uint, num
 from obvert.emit.profile import OutputSpec

@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 import pytest
+
 from obvert.food.choi_okos import MAX_STEP_C, Composition, composition_table
 from obvert.food.lethality import log_reduction
 from obvert.food.measured import measured_table

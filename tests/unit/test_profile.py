@@ -5,6 +5,7 @@ from __future__ import annotations
 import dataclasses
 
 import pytest
+
 from obvert.emit import OutputSpec, ProfileError, TargetProfile, load_target, loads_target
 from obvert.emit.profile import builtin_targets
 

@@ -6,6 +6,7 @@ import math
 
 import numpy as np
 import pytest
+
 from obvert.food.choi_okos import Composition, composition_table
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import constant_table

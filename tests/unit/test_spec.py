@@ -61,7 +61,8 @@ def test_missing_section_and_unknown_section() -> None:
 def test_custom_kinetics_need_a_source() -> None:
     text = _demo().replace(
         'organism = "salmonella_beef_7log"',
-        'organism_name = "house strain"\nd_ref = "1.5 min"\nt_ref = "60 degC"\nz = "5.5 K"\nlog_reduction = 6.5',
+        'organism_name = "house strain"\nd_ref = "1.5 min"\nt_ref = "60 degC"\n'
+        'z = "5.5 K"\nlog_reduction = 6.5',
     )
     with pytest.raises(SpecError, match="safety.source"):
         loads_spec(text)
