@@ -84,8 +84,17 @@ def main() -> None:
     multiple=True,
     help="Target profile name or .toml path (repeatable); default: the spec's outputs.targets.",
 )
+@click.option(
+    "--jobs",
+    type=click.IntRange(1, 256),
+    default=lambda: os.cpu_count() or 1,
+    show_default="number of CPUs",
+    help="Worker processes (one thickness row each); the output does not depend on it.",
+)
 @click.option("--quiet", is_flag=True, help="Do not print progress.")
-def build_cmd(spec_file: Path | None, out_dir: Path, targets: tuple[str, ...], quiet: bool) -> None:
+def build_cmd(
+    spec_file: Path | None, out_dir: Path, targets: tuple[str, ...], jobs: int, quiet: bool
+) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
     try:
         spec = (
@@ -103,7 +112,7 @@ def build_cmd(spec_file: Path | None, out_dir: Path, targets: tuple[str, ...], q
         )
     progress = None if quiet else (lambda msg: click.echo(msg, err=True))
     try:
-        table = build(spec, progress)
+        table = build(spec, progress, jobs=jobs)
     except BuildError as exc:
         click.echo(f"error: {exc}", err=True)
         click.echo("nothing was written", err=True)

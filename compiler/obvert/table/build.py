@@ -5,7 +5,9 @@
 
 from __future__ import annotations
 
+import multiprocessing
 from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass
 
 from obvert.food.factory import food_table
@@ -126,8 +128,18 @@ def requirement_of(spec: Spec) -> Requirement:
     return Requirement(s.log_reduction, s.min_temp_c, s.carry_over_s)
 
 
-def build(spec: Spec, progress: Progress | None = None) -> CookTable:
+def build(spec: Spec, progress: Progress | None = None, jobs: int = 1) -> CookTable:
     """Plan, quantise and certify every node of the spec's grid.
+
+    Parameters
+    ----------
+    spec : Spec
+        The checked spec.
+    progress : callable, optional
+        Called with a one-line message as work proceeds.
+    jobs : int
+        Worker processes; rows of equal thickness are independent and are built in
+        parallel when ``jobs > 1``. The result does not depend on ``jobs``.
 
     Raises
     ------
@@ -135,21 +147,42 @@ def build(spec: Spec, progress: Progress | None = None) -> CookTable:
         A node has no solvable flip count, or its schedule cannot be certified.
     """
     say = progress or (lambda _msg: None)
+    n_t = len(spec.grid.thickness_m)
+    workers = max(1, min(int(jobs), n_t))
+    rows: dict[int, list[Node]] = {}
+    if workers == 1:
+        for i in range(n_t):
+            rows[i] = _row(spec, i, say)
+    else:
+        ctx = multiprocessing.get_context("spawn")
+        with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
+            futures = {pool.submit(_row, spec, i, None): i for i in range(n_t)}
+            say(f"building {n_t} thickness rows in {workers} processes")
+            for fut in as_completed(futures):
+                i = futures[fut]
+                rows[i] = fut.result()
+                say(f"row {i + 1}/{n_t} done: {spec.grid.thickness_m[i] * 1e3:g} mm")
+    return CookTable(spec, tuple(node for i in range(n_t) for node in rows[i]))
+
+
+def _row(spec: Spec, i: int, say: Progress | None) -> list[Node]:
+    """All nodes of thickness row ``i`` (one planner, reused across start temperatures)."""
     table = food_table(spec.food)
     env, leth, req = surroundings(spec), lethality_of(spec), requirement_of(spec)
     ref = ReferenceSettings(spec.planning.reference_cells, spec.planning.reference_dt_s)
-    nodes: list[Node] = []
-    n_t, n_s = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
-    for i, thick in enumerate(spec.grid.thickness_m):
-        model = SpectralModel(table, thick, leth, SpectralSettings(spec.planning.spectral_nodes))
-        planner = Planner(
-            model, env, req, spec.appliance.min_event_gap_s, Grid(spec.planning.elements_per_phase)
-        )
-        for j, t0 in enumerate(spec.grid.start_temp_c):
-            say(f"node {i * n_s + j + 1}/{n_t * n_s}: {thick * 1e3:g} mm, {t0:g} degC")
-            case = Case(table, thick, t0, env, leth, req, ref)
-            nodes.append(_node(spec, planner, case, i, j))
-    return CookTable(spec, tuple(nodes))
+    thick = spec.grid.thickness_m[i]
+    n_s = len(spec.grid.start_temp_c)
+    model = SpectralModel(table, thick, leth, SpectralSettings(spec.planning.spectral_nodes))
+    planner = Planner(
+        model, env, req, spec.appliance.min_event_gap_s, Grid(spec.planning.elements_per_phase)
+    )
+    out = []
+    for j, t0 in enumerate(spec.grid.start_temp_c):
+        if say is not None:
+            n_all = len(spec.grid.thickness_m) * n_s
+            say(f"node {i * n_s + j + 1}/{n_all}: {thick * 1e3:g} mm, {t0:g} degC")
+        out.append(_node(spec, planner, Case(table, thick, t0, env, leth, req, ref), i, j))
+    return out
 
 
 def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
