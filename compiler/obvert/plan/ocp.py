@@ -138,6 +138,7 @@ class _Transcription:
             "ipopt.print_level": int(__import__("os").environ.get("OBVERT_IPOPT_PRINT", "0")),
             "ipopt.sb": "yes",
             "print_time": bool(__import__("os").environ.get("OBVERT_IPOPT_PRINT")),
+            "show_eval_warnings": False,
             "ipopt.tol": 1e-7,
             "ipopt.constr_viol_tol": 1e-8,
             "ipopt.acceptable_tol": 1e-5,
