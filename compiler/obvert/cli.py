@@ -38,9 +38,23 @@ def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
             os.replace(src, dst)
 
 
+def _opt(v: float | None) -> str:
+    return f"{'-':>8}" if v is None else f"{v:8.1f}"
+
+
 def _summary(m: dict) -> str:
-    cols = ("thick mm", "start C", "flips", "cook s", "plan s", "fix s", "margin log")
-    widths = (8, 8, 5, 8, 8, 6, 10)
+    cols = (
+        "thick mm",
+        "start C",
+        "flips",
+        "cook s",
+        "plan s",
+        "fix s",
+        "margin log",
+        "ff lim s",
+        "2side s",
+    )
+    widths = (8, 8, 5, 8, 8, 6, 10, 8, 8)
     head = " ".join(f"{c:>{w}}" for c, w in zip(cols, widths, strict=True)) + "  events"
     lines = [head, "-" * len(head)]
     for n in m["nodes"]:
@@ -48,9 +62,14 @@ def _summary(m: dict) -> str:
         lines.append(
             f"{n['thickness_m'] * 1e3:8.2f} {n['start_temp_c']:8.1f} {n['flips']:5d} "
             f"{n['cook_time_s']:8.1f} {n['planned_cook_time_s']:8.1f} {n['correction_s']:6.1f} "
-            f"{n['margin_log']:10.3f}  {ev}"
+            f"{n['margin_log']:10.3f} {_opt(n['bounds_s'].get('fast_flip_limit'))} "
+            f"{_opt(n['bounds_s'].get('two_sided_contact'))}  {ev}"
         )
     s = m["summary"]
+    lines.append(
+        "plan s: reduced-model optimum before ticks; fix s: extension needed on the reference "
+        "model; ff lim s / 2side s: fast-flip and two-sided-contact limits (reduced model)"
+    )
     lines.append(
         f"smallest margin {s['smallest_margin_log']:.3f} log; "
         f"{s['nodes_corrected']} node(s) extended by certification"

@@ -148,3 +148,27 @@ def test_unreachable_target_is_exit_1_and_writes_nothing(tmp_path: Path) -> None
     assert code == 1
     assert "6 mm" in err and "4 degC" in err and "nothing was written" in err
     assert not (tmp_path / "out").exists() or not any((tmp_path / "out").iterdir())
+
+
+def test_no_schedule_beats_the_physical_limits(built) -> None:
+    for node in built.manifest["nodes"]:
+        ff = node["bounds_s"]["fast_flip_limit"]
+        two = node["bounds_s"]["two_sided_contact"]
+        assert ff is not None and two is not None
+        times = [c["planned_cook_time_s"] for c in node["candidates"]]
+        # Same reduced model and collocation on both sides, so the only slack needed is the
+        # solver tolerance: no flip schedule may be faster than either limit.
+        assert min(times) >= ff - 0.1
+        assert min(times) >= two - 0.1
+        # Two-sided contact at plate temperature beats averaging plate and air on each face.
+        assert two <= ff
+
+
+def test_frequent_flipping_shortens_thin_patty_by_up_to_a_third(built) -> None:
+    """Common practice (rule of thumb, no source): frequent flipping cooks a thin patty
+    faster than a single flip, by up to roughly a third."""
+    node = next(n for n in built.manifest["nodes"] if n["i"] == 0 and n["j"] == 1)  # 6 mm, 4 C
+    one_flip = node["candidates"][1]["planned_cook_time_s"]
+    limit = node["bounds_s"]["fast_flip_limit"]
+    saving = (one_flip - limit) / one_flip
+    assert 0.10 <= saving <= 0.40, saving

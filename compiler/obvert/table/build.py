@@ -8,10 +8,11 @@ from __future__ import annotations
 import multiprocessing
 from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from obvert.food.factory import food_table
 from obvert.food.lethality import LethalityModel
+from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
 from obvert.plan.ocp import PlanError, Planner, Requirement
 from obvert.plan.quantize import quantize, to_ticks
@@ -74,6 +75,8 @@ class Node:
         Coldest point at removal on the reference model, degC.
     candidates : tuple of Candidate
         Every flip count tried.
+    bounds_s : tuple of (str, float or None)
+        Physical limits of the cook time on the reduced model (see obvert.plan.bounds), s.
     """
 
     i: int
@@ -87,6 +90,7 @@ class Node:
     margin_log: float
     min_temp_at_removal_c: float
     candidates: tuple[Candidate, ...]
+    bounds_s: tuple[tuple[str, float | None], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -176,12 +180,14 @@ def _row(spec: Spec, i: int, say: Progress | None) -> list[Node]:
     planner = Planner(
         model, env, req, spec.appliance.min_event_gap_s, Grid(spec.planning.elements_per_phase)
     )
+    limits = BoundPlanners(model, env, req, Grid(spec.planning.elements_per_phase))
     out = []
     for j, t0 in enumerate(spec.grid.start_temp_c):
         if say is not None:
             n_all = len(spec.grid.thickness_m) * n_s
             say(f"node {i * n_s + j + 1}/{n_all}: {thick * 1e3:g} mm, {t0:g} degC")
-        out.append(_node(spec, planner, Case(table, thick, t0, env, leth, req, ref), i, j))
+        node = _node(spec, planner, Case(table, thick, t0, env, leth, req, ref), i, j)
+        out.append(replace(node, bounds_s=tuple(sorted(limits.solve(t0).items()))))
     return out
 
 

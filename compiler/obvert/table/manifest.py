@@ -50,6 +50,7 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "min_log_reduction": _r(node.min_log_reduction),
         "margin_log": _r(node.margin_log),
         "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
+        "bounds_s": {k: (None if v is None else _r(v)) for k, v in node.bounds_s},
         "candidates": [
             {
                 "flips": c.flips,
