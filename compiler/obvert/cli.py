@@ -20,9 +20,11 @@ from obvert.spec import SpecError, load_spec, loads_spec
 from obvert.table.build import BuildError, build
 from obvert.table.manifest import manifest
 
+DEMOS = {"griddle": "griddle_patty.toml", "clamshell": "clamshell_patty.toml"}
 
-def _demo_spec_text() -> str:
-    return resources.files("obvert.demo").joinpath("griddle_patty.toml").read_text("utf-8")
+
+def _demo_spec_text(name: str) -> str:
+    return resources.files("obvert.demo").joinpath(DEMOS[name]).read_text("utf-8")
 
 
 def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
@@ -110,16 +112,28 @@ def main() -> None:
     show_default="number of CPUs",
     help="Worker processes (one thickness row each); the output does not depend on it.",
 )
+@click.option(
+    "--demo",
+    type=click.Choice(sorted(DEMOS)),
+    default="griddle",
+    show_default=True,
+    help="Built-in demo to build when no SPEC_FILE is given (invented kitchen and products).",
+)
 @click.option("--quiet", is_flag=True, help="Do not print progress.")
 def build_cmd(
-    spec_file: Path | None, out_dir: Path, targets: tuple[str, ...], jobs: int, quiet: bool
+    spec_file: Path | None,
+    out_dir: Path,
+    targets: tuple[str, ...],
+    jobs: int,
+    demo: str,
+    quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
     try:
         spec = (
             load_spec(spec_file)
             if spec_file is not None
-            else loads_spec(_demo_spec_text(), "<demo>")
+            else loads_spec(_demo_spec_text(demo), f"<demo {demo}>")
         )
         profiles = [load_target(t) for t in (targets or spec.targets)]
     except (SpecError, ProfileError) as exc:
@@ -127,7 +141,8 @@ def build_cmd(
         sys.exit(2)
     if spec_file is None and not quiet:
         click.echo(
-            "no spec given: building the built-in demo (invented product and appliance)", err=True
+            f"no spec given: building the built-in {demo} demo (invented product and appliance)",
+            err=True,
         )
     progress = None if quiet else (lambda msg: click.echo(msg, err=True))
     try:

@@ -75,3 +75,17 @@ def test_custom_kinetics_need_a_source() -> None:
 def test_invalid_toml_is_a_spec_error() -> None:
     with pytest.raises(SpecError, match="valid TOML"):
         loads_spec("[table\nname=")
+
+
+def test_clamshell_needs_a_platen_and_refuses_flips() -> None:
+    text = resources.files("obvert.demo").joinpath("clamshell_patty.toml").read_text("utf-8")
+    s = loads_spec(text)
+    assert s.appliance.kind == "clamshell" and s.appliance.max_flips == 0
+    assert s.appliance.platen_temp_c == pytest.approx(200.0)
+    with pytest.raises(SpecError, match="appliance.platen_temperature"):
+        loads_spec(text.replace('platen_temperature = "200 degC"\n', ""))
+    with pytest.raises(SpecError, match="appliance.max_flips"):
+        loads_spec(text.replace('tick = "100 ms"', 'tick = "100 ms"\nmax_flips = 2'))
+    griddle = _demo().replace('tick = "100 ms"', 'tick = "100 ms"\nplaten_temperature = "200 degC"')
+    with pytest.raises(SpecError, match="no platen"):
+        loads_spec(griddle)

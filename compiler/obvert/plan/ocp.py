@@ -361,10 +361,13 @@ class Planner:
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:
         """Event times from the dwell before each event, s."""
-        events, t = [], 0.0
+        events, t, closed = [], 0.0, False
         for k, kind in enumerate((*kinds, "done")):
             t += float(dwell[k])
+            if kind == "done" and closed:
+                events.append(Event("platen_open", t))  # the platen rises when the food is done
             events.append(Event(kind, t))
             if kind == "flip":
                 t += self.env.flip_air_s
+            closed = {"platen_close": True, "platen_open": False}.get(kind, closed)
         return Schedule(tuple(events))

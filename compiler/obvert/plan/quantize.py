@@ -37,10 +37,16 @@ def quantize(schedule: Schedule, tick_s: float, min_gap_s: float, flip_air_s: fl
     gap = math.ceil(min_gap_s / tick_s - _EPS)
     air = math.ceil(flip_air_s / tick_s - _EPS)
     out: list[Event] = []
-    prev, prev_kind = 0, None
-    for ev in schedule.events:
+    prev, prev_kind, released = 0, None, False
+    evs = schedule.events
+    for k, ev in enumerate(evs):
+        if ev.kind == "done" and released:
+            out.append(Event("done", prev * tick_s))  # done together with the release
+            continue
+        # A platen opening together with done releases the food: it is the end of the cook.
+        released = ev.kind == "platen_open" and k + 1 < len(evs) and evs[k + 1].at_s == ev.at_s
         x = ev.at_s / tick_s
-        ticks = math.ceil(x - _EPS) if ev.kind == "done" else round(x)
+        ticks = math.ceil(x - _EPS) if ev.kind == "done" or released else round(x)
         earliest = prev + max(gap, air if prev_kind == "flip" else 0)
         ticks = max(ticks, earliest)
         out.append(Event(ev.kind, ticks * tick_s))

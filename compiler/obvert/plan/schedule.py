@@ -89,8 +89,14 @@ class Schedule:
         return sum(e.kind == "flip" for e in self.events)
 
     def with_done(self, done_s: float) -> Schedule:
-        """Same schedule with the done time moved to ``done_s`` (s)."""
-        return Schedule(self.events[:-1] + (Event("done", done_s),))
+        """Same schedule with the done time moved to ``done_s`` (s).
+
+        A platen opening at the done time (the clamshell releasing the food) moves with it.
+        """
+        head = list(self.events[:-1])
+        if head and head[-1].kind == "platen_open" and head[-1].at_s == self.done_s:
+            head[-1] = Event("platen_open", done_s)
+        return Schedule((*head, Event("done", done_s)))
 
 
 def phases_for(schedule: Schedule, env: Surroundings, rest_s: float = 0.0) -> list[Phase]:

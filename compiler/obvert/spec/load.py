@@ -184,34 +184,51 @@ def _grid(sec: _Section) -> GridSpec:
     return GridSpec(thickness_m=t, start_temp_c=s)
 
 
+APPLIANCE_KINDS = ("flipping_griddle", "clamshell", "flip_then_close")
+
+
 def _appliance(sec: _Section) -> ApplianceSpec:
     kind = sec.text("kind", "flipping_griddle")
-    if kind != "flipping_griddle":
-        raise SpecError(sec._p("kind"), kind, "'flipping_griddle'")
-    q = sec.qty
+    if kind not in APPLIANCE_KINDS:
+        raise SpecError(sec._p("kind"), kind, f"one of {list(APPLIANCE_KINDS)}")
+    q, p = sec.qty, sec._p
+    htc = "heat_transfer_coefficient"
     plate = _range_check(
-        sec._p("plate_temperature"), q("plate_temperature", "temperature"), 60.0, 300.0, "degC"
+        p("plate_temperature"), q("plate_temperature", "temperature"), 60.0, 300.0, "degC"
     )
     contact = _range_check(
-        sec._p("contact_coefficient"),
-        q("contact_coefficient", "heat_transfer_coefficient"),
-        10.0,
-        5000.0,
-        "W/(m^2*K)",
+        p("contact_coefficient"), q("contact_coefficient", htc), 10.0, 5000.0, "W/(m^2*K)"
     )
     air_t = _range_check(
-        sec._p("air_temperature"), q("air_temperature", "temperature"), -10.0, 200.0, "degC"
+        p("air_temperature"), q("air_temperature", "temperature"), -10.0, 200.0, "degC"
     )
-    air_h = _range_check(
-        sec._p("air_coefficient"),
-        q("air_coefficient", "heat_transfer_coefficient"),
-        0.0,
-        500.0,
-        "W/(m^2*K)",
-    )
-    flip_air = _range_check(sec._p("flip_air_time"), q("flip_air_time", "time"), 0.1, 30.0, "s")
-    gap = _range_check(sec._p("min_event_gap"), q("min_event_gap", "time"), 0.0, 600.0, "s")
-    tick = _range_check(sec._p("tick"), q("tick", "time"), 0.001, 1.0, "s")
+    air_h = _range_check(p("air_coefficient"), q("air_coefficient", htc), 0.0, 500.0, "W/(m^2*K)")
+    gap = _range_check(p("min_event_gap"), q("min_event_gap", "time"), 0.0, 600.0, "s")
+    tick = _range_check(p("tick"), q("tick", "time"), 0.001, 1.0, "s")
+    if kind == "clamshell":
+        flip_air = _range_check(
+            p("flip_air_time"), q("flip_air_time", "time", "1 s"), 0.1, 30.0, "s"
+        )
+        max_flips = sec.integer("max_flips", 0, 0, 0)
+    else:
+        flip_air = _range_check(p("flip_air_time"), q("flip_air_time", "time"), 0.1, 30.0, "s")
+        max_flips = sec.integer("max_flips", 0, 8)
+    platen_t = platen_h = None
+    if kind == "flipping_griddle":
+        for key in ("platen_temperature", "platen_contact_coefficient"):
+            if sec.has(key):
+                raise SpecError(p(key), sec.data[key], "nothing: a flipping griddle has no platen")
+    else:
+        platen_t = _range_check(
+            p("platen_temperature"), q("platen_temperature", "temperature"), 60.0, 300.0, "degC"
+        )
+        platen_h = _range_check(
+            p("platen_contact_coefficient"),
+            q("platen_contact_coefficient", htc),
+            10.0,
+            5000.0,
+            "W/(m^2*K)",
+        )
     out = ApplianceSpec(
         name=sec.text("name"),
         kind=kind,
@@ -222,8 +239,10 @@ def _appliance(sec: _Section) -> ApplianceSpec:
         emissivity=sec.number("emissivity", 0.0, 1.0),
         flip_air_s=flip_air,
         min_event_gap_s=gap,
-        max_flips=sec.integer("max_flips", 0, 8),
+        max_flips=max_flips,
         tick_s=tick,
+        platen_temp_c=platen_t,
+        platen_coefficient=platen_h,
     )
     sec.done()
     return out

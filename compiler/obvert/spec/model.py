@@ -75,14 +75,16 @@ class GridSpec:
 
 @dataclass(frozen=True)
 class ApplianceSpec:
-    """A flipping griddle.
+    """A contact-cooking appliance: flipping griddle, clamshell, or both.
 
     Attributes
     ----------
     name : str
         Appliance name.
     kind : str
-        ``"flipping_griddle"``.
+        ``"flipping_griddle"`` (lower plate, turning arm), ``"clamshell"`` (lower plate and an
+        upper platen lowered after an optional sear, raised at done) or ``"flip_then_close"``
+        (flips on the lower plate, then the platen closes).
     plate_temp_c : float
         Plate surface setpoint, degC.
     contact_coefficient : float
@@ -101,6 +103,10 @@ class ApplianceSpec:
         Largest number of flips the appliance performs, -.
     tick_s : float
         Firmware timer tick, s.
+    platen_temp_c : float | None
+        Upper platen setpoint, degC (appliances with a platen only).
+    platen_coefficient : float | None
+        Platen-to-food contact coefficient, W/(m^2 K) (appliances with a platen only).
     """
 
     name: str
@@ -114,6 +120,8 @@ class ApplianceSpec:
     min_event_gap_s: float
     max_flips: int
     tick_s: float
+    platen_temp_c: float | None = None
+    platen_coefficient: float | None = None
 
 
 @dataclass(frozen=True)

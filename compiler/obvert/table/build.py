@@ -42,11 +42,14 @@ class Candidate:
         Minimum cook time on the reduced model, s (None: the solve failed).
     note : str
         Solver status, or why it failed.
+    sequence : tuple of str
+        The events before done that were planned.
     """
 
     flips: int
     planned_cook_time_s: float | None
     note: str
+    sequence: tuple[str, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -115,9 +118,21 @@ def surroundings(spec: Spec) -> Surroundings:
     return Surroundings(
         plate=FaceBC(a.contact_coefficient, a.plate_temp_c),
         air=FaceBC(a.air_coefficient, a.air_temp_c, a.emissivity),
-        platen=None,
+        platen=None
+        if a.platen_temp_c is None or a.platen_coefficient is None
+        else FaceBC(a.platen_coefficient, a.platen_temp_c),
         flip_air_s=a.flip_air_s,
     )
+
+
+def sequences(spec: Spec) -> list[tuple[str, ...]]:
+    """Event sequences (before done) the planner tries for the spec's appliance."""
+    a = spec.appliance
+    flips = [("flip",) * n for n in range(a.max_flips + 1)]
+    if a.kind == "flipping_griddle":
+        return flips
+    closes = [(*f, "platen_close") for f in flips]
+    return closes if a.kind == "clamshell" else flips + closes
 
 
 def lethality_of(spec: Spec) -> LethalityModel:
@@ -196,16 +211,19 @@ def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
     cands: list[Candidate] = []
     best: tuple[float, Schedule] | None = None
     prev: tuple[float, ...] | None = None
-    for flips in range(spec.appliance.max_flips + 1):
-        seeds = () if prev is None else (_split_last(prev, spec.appliance.flip_air_s),)
+    for seq in sequences(spec):
+        flips = seq.count("flip")
+        closing = "platen_close" in seq
+        seeds = () if prev is None or closing else (_split_last(prev, spec.appliance.flip_air_s),)
         try:
-            res = planner.solve(("flip",) * flips, case.start_temp_c, seeds)
+            res = planner.solve(seq, case.start_temp_c, seeds)
         except PlanError as exc:
-            cands.append(Candidate(flips, None, str(exc)))
-            prev = None
+            cands.append(Candidate(flips, None, str(exc), seq))
+            prev = None if not closing else prev
             continue
-        prev = res.dwell_s
-        cands.append(Candidate(flips, res.cook_time_s, res.solver_status))
+        if not closing:
+            prev = res.dwell_s
+        cands.append(Candidate(flips, res.cook_time_s, res.solver_status, seq))
         cost = res.cook_time_s + flips * spec.planning.flip_cost_s
         if best is None or cost < best[0] - 1e-9:
             best = (cost, res.schedule)

@@ -58,6 +58,7 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
                 if c.planned_cook_time_s is None
                 else _r(c.planned_cook_time_s),
                 "note": c.note,
+                "sequence": list(c.sequence),
             }
             for c in node.candidates
         ],
