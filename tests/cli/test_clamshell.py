@@ -18,6 +18,7 @@ def test_clamshell_schedule_closes_then_releases_at_done(tmp_path: Path) -> None
     m = json.loads((tmp_path / "test_press.json").read_text())
     header = (tmp_path / "test_press.h").read_text()
     assert "TEST_PRESS_EVENT_PLATEN_CLOSE" in header
+    assert "fast-flip" in header and "two-sided" in header  # limits in the header metadata
     gap = m["spec"]["appliance"]["min_event_gap_s"]
     for node in m["nodes"]:
         kinds = [e["kind"] for e in node["events"]]

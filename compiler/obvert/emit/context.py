@@ -173,6 +173,29 @@ def _banner(manifest: dict[str, Any], target: TargetProfile, fixed: bool) -> lis
         *_wrap(f"Lookup rule: {rule['name']}: {rule['description']}"),
         *_wrap(f"Lookup inputs: {inputs}."),
     ]
+    return lines + _bound_lines(manifest)
+
+
+def _bound_lines(manifest: dict[str, Any]) -> list[str]:
+    """Per-node cook time against the physical limits, when the manifest carries them."""
+    nodes = [n for n in manifest["nodes"] if isinstance(n.get("bounds_s"), dict)]
+    if not nodes:
+        return []
+    lines = [
+        "",
+        "Cook time against its physical limits (reduced model, s): node, planned,",
+        "fast-flip limit, two-sided contact limit; certified cook time in ticks is in the data.",
+    ]
+    for n in nodes:
+        b = n["bounds_s"]
+        cells = [
+            "-" if b.get(k) is None else num(b[k]) for k in ("fast_flip_limit", "two_sided_contact")
+        ]
+        planned = num(n.get("planned_cook_time_s", n["cook_time_s"]))
+        lines.append(
+            f"  node {n['i']},{n['j']}: planned {planned}, fast-flip {cells[0]}, "
+            f"two-sided {cells[1]}"
+        )
     return lines
 
 
