@@ -8,9 +8,11 @@ Nothing in the build uses this module; it holds the prototypes the benchmark com
   (barycentric Lagrange interpolation, Berrut, J.-P. and Trefethen, L. N. (2004),
   "Barycentric Lagrange interpolation", SIAM Review 46(3):501-517, eq. 5.4 with the
   Chebyshev-Lobatto weights).
-* :class:`SensorPlanner`: the planner with the log reduction integrated at equally spaced
-  "sensor" points from the interpolated temperature instead of at the Chebyshev nodes,
-  which are sparse in the middle of the slab where the cold spot lies.
+* :func:`done_on_model`: the earliest done time on the reduced model itself for given
+  events (CVODES), with the log reduction checked either at the Chebyshev nodes (the
+  planner's rule) or on a fine grid of interpolated temperatures. The nodes are sparse
+  mid-slab, and at removal the log reduction has a valley a few tenths of a millimetre
+  wide between the parts heated before and after the flip, so the node rule misses it.
 * :class:`MappedSpectralModel`: Chebyshev collocation on the mapped grid
   ``x = L (1 - arcsin(a xi)/arcsin(a)) / 2`` of Kosloff, D. and Tal-Ezer, H. (1993),
   "A modified Chebyshev pseudospectral method with an O(N^-1) time step restriction",
@@ -27,7 +29,6 @@ Nothing in the build uses this module; it holds the prototypes the benchmark com
 from __future__ import annotations
 
 import math
-from types import SimpleNamespace
 
 import casadi as ca
 import numpy as np
@@ -36,17 +37,8 @@ from numpy.typing import NDArray
 from obvert.food.choi_okos import cumulative_vol_enthalpy
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import PropertyTable
-from obvert.plan.collocation import Grid, PhaseBlock, radau_coefficients
-from obvert.plan.ocp import (
-    DWELL_SCALE_S,
-    SOLVE_BUDGET_S,
-    Planner,
-    PlanResult,
-    Requirement,
-    _phase_specs,
-)
-from obvert.plan.schedule import Surroundings
-from obvert.thermal.boundary import FaceBC
+from obvert.plan.schedule import Schedule, Surroundings, phases_for
+from obvert.thermal.boundary import FaceBC, Phase
 from obvert.thermal.spectral import (
     SpectralModel,
     SpectralSettings,
@@ -210,280 +202,91 @@ def smoothed_table(table: PropertyTable, sigma_c: float) -> PropertyTable:
     )
 
 
-class SensorBlock(PhaseBlock):
-    """Collocation of one phase with lethality integrated at sensor points.
+def done_on_model(
+    model: SpectralModel,
+    env: Surroundings,
+    schedule: Schedule,
+    start_temp_c: float,
+    target: float,
+    points: int = 801,
+    dt_s: float = 0.05,
+) -> float:
+    """Earliest done time at which the reduced model itself meets the log-reduction target.
 
-    Same states and collocation equations as :class:`~obvert.plan.collocation.PhaseBlock`;
-    the lethality rate (and the end temperature returned) is taken at ``interp @ T_nodes``.
+    The events of ``schedule`` before ``done`` are kept; the model is run by CVODES with
+    outputs at most ``dt_s`` apart, and the first time its smallest log reduction reaches
+    ``target`` is interpolated between outputs.
 
     Parameters
     ----------
     model : SpectralModel
-        Reduced model.
-    face0, face1 : FaceBC
-        Boundary conditions during the phase.
-    grid : Grid
-        Element layout.
-    interp : ndarray, shape (n_sensors, model.n)
-        Node-to-sensor interpolation; sensors symmetric under a flip.
+        Reduced model (stock or lab variant).
+    env : Surroundings
+        Plate, air and flip conditions.
+    schedule : Schedule
+        Planned events; only the time of ``done`` is replaced.
+    start_temp_c : float
+        Uniform start temperature, degC.
+    target : float
+        Log reduction the smallest value must reach, log10.
+    points : int
+        > 0: LR integrated (trapezoid) from the temperature interpolated on that many equally
+        spaced points across the slab; 0: the model's node LR states (the planner's rule).
+    dt_s : float
+        Largest output interval, s.
+
+    Returns
+    -------
+    float
+        Done time, s.
     """
-
-    def __init__(
-        self, model: SpectralModel, face0: FaceBC, face1: FaceBC, grid: Grid, interp: Array
-    ) -> None:
-        self.model, self.grid = model, grid
-        n, d, m = model.n, grid.degree, grid.elements
-        s = ca.MX.sym("s", n)
-        t = ca.vertcat(*[model.temp_of(s[j]) for j in range(n)])
-        u = ca.vertcat(*[model.kirchhoff_of(s[j]) for j in range(n)])
-        dmat = ca.DM(model.d)
-        q = -ca.mtimes(dmat, u)
-        q = ca.vertcat(face_flux(face0, t[0]), q[1:-1], -face_flux(face1, t[-1]))
-        ds = -ca.mtimes(dmat, q) / model.e_scale
-        t_sensor = ca.mtimes(ca.DM(interp), t)
-        f = ca.Function("f", [s], [ds, _rate(model.lethality, t_sensor), t_sensor])
-        self.c, self.b = radau_coefficients(d)
-        xs, zs, h = ca.MX.sym("xs", n), ca.MX.sym("zs", n * d), ca.MX.sym("h")
-        pts = [xs] + [zs[r * n : (r + 1) * n] for r in range(d)]
-        res, lr, t_end = [], 0, None
-        for r in range(1, d + 1):
-            ds_r, rate_r, t_r = f(pts[r])
-            xp = sum(float(self.c[j, r]) * pts[j] for j in range(d + 1))
-            res.append(xp - h * ds_r)
-            lr = lr + h * float(self.b[r]) * rate_r
-            t_end = t_r
-        elem = ca.Function("element", [xs, zs, h], [ca.vertcat(*res), lr, t_end])
-        self._elem = elem.map(m)
-        self.n_stage_vars = n * m * d
-
-
-#: Fine grid on which a plan's log-reduction profile is checked, points across the slab.
-CHECK_POINTS = 801
-
-
-class SensorPlanner(Planner):
-    """:class:`~obvert.plan.ocp.Planner` whose log-reduction rule holds across the slab.
-
-    At removal the log reduction across the slab has a narrow valley, a few tenths of a
-    millimetre wide, between the part heated before the flip and the part heated after it,
-    so a fixed set of points misses its bottom (and the optimiser moves the flip until the
-    valley falls between points). The rule ``LR(x) >= target`` for all x is therefore held
-    (i) at ``n_sensors`` equally spaced points, faces included, and (ii) at the bottom of
-    the valley, tracked by one extra decision variable ``x_v`` with the stationarity
-    condition ``dLR/dx(x_v) = 0`` (the lower-level optimality condition of the
-    semi-infinite constraint, Hettich, R. and Kortanek, K. O. (1993), "Semi-infinite
-    programming: theory, methods and applications", SIAM Review 35(3):380-429, sec. 5),
-    started at the lowest of :data:`CHECK_POINTS` points of the initial guess. The valley
-    point is left out when that lowest point is at a face (no interior minimum). LR at any
-    point is the Radau quadrature of the rate at the temperature interpolated from the
-    nodes. Other parameters as for :class:`~obvert.plan.ocp.Planner`. Relies on the private
-    structure of :mod:`obvert.plan.ocp` (``_simulate``, the transcription's fields).
-    """
-
-    def __init__(
-        self,
-        model: SpectralModel,
-        env: Surroundings,
-        requirement: Requirement,
-        min_gap_s: float,
-        grid: Grid | None = None,
-        n_sensors: int = 25,
-    ) -> None:
-        super().__init__(model, env, requirement, min_gap_s, grid)
-        self.interp = interpolation_matrix(model, sensor_points(model.thickness_m, n_sensors))
-        x = np.linspace(0.0, model.thickness_m, CHECK_POINTS)
-        self._check = (x, interpolation_matrix(model, x))
-        self._guesses: dict[tuple[tuple[str, ...], float], Array] = {}
-        self.valley = False
-
-    def block(self, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
-        """Collocation block with sensor lethality for a pair of face conditions (cached)."""
-        key = (face0, face1)
-        if key not in self._blocks:
-            self._blocks[key] = SensorBlock(self.model, face0, face1, self.grid, self.interp)
-        return self._blocks[key]
-
-    def feasible_guess(self, kinds: tuple[str, ...], start_temp_c: float) -> Array:
-        """:meth:`Planner.feasible_guess` on the sensors, computed once per start, s."""
-        key = (kinds, float(start_temp_c))
-        if key not in self._guesses:
-            self._guesses[key] = super().feasible_guess(kinds, start_temp_c)
-        return self._guesses[key]
-
-    def solve(
-        self, kinds: tuple[str, ...], start_temp_c: float, seeds: tuple[Array, ...] = ()
-    ) -> PlanResult:
-        """Minimum-time schedule, as :meth:`Planner.solve` with the sensor transcription."""
-        self.valley = False
-        x_low, _ = self.check(kinds, start_temp_c, self.feasible_guess(kinds, start_temp_c))
-        edge = 2.0 * self.model.thickness_m / (CHECK_POINTS - 1)
-        self.valley = edge < x_low < self.model.thickness_m - edge
-        key = (*kinds, "valley") if self.valley else kinds
-        if key not in self._nlps:
-            self._nlps[key] = _sensor_transcription(self, kinds)
-        self._nlps[kinds] = self._nlps[key]
-        return super().solve(kinds, start_temp_c, seeds)
-
-    def check(
-        self, kinds: tuple[str, ...], start_temp_c: float, dwell: Array
-    ) -> tuple[float, float]:
-        """Position (m) and value of the lowest LR on the check grid for ``dwell`` (CVODES)."""
-        stages, _, _ = Planner._simulate(self, kinds, start_temp_c, dwell)
-        _, lr, _ = self._lethality(kinds, dwell, stages, self._check[1])
-        j = int(np.argmin(lr))
-        return float(self._check[0][j]), float(lr[j])
-
-    def _simulate(
-        self, kinds: tuple[str, ...], start_temp_c: float, dwell: Array
-    ) -> tuple[list[Array], Array, Array]:
-        """CVODES simulation: stage states (then x_v/L), food-frame sensor LR, removal temps."""
-        stages, _, _ = super()._simulate(kinds, start_temp_c, dwell)
-        after, lr, t_rem = self._lethality(kinds, dwell, stages, self.interp)
-        self._last_lr_after = after
-        if self.valley:  # the valley variable rides at the end of the stage block
-            _, lr_fine, _ = self._lethality(kinds, dwell, stages, self._check[1])
-            v0 = self._check[0][int(np.argmin(lr_fine))] / self.model.thickness_m
-            stages = [*stages[:-1], np.append(stages[-1], v0)]
-        return stages, lr, t_rem
-
-    def _lethality(
-        self, kinds: tuple[str, ...], dwell: Array, stages: list[Array], interp: Array
-    ) -> tuple[list[Array], Array, Array]:
-        """Radau quadrature of the rate at ``interp @ T`` over the stage states.
-
-        Returns the food-frame LR after each phase, at removal, and the removal temperatures.
-        """
-        model, grid = self.model, self.grid
-        _, b = radau_coefficients(grid.degree)
-        weights = (grid.fractions()[:, None] * b[None, 1:]).ravel()
-        lr, flipped, after, t_rem = np.zeros(interp.shape[0]), False, [], np.zeros(0)
-        for ph, z in zip(_phase_specs(kinds, self.env, self.req.rest_s), stages, strict=True):
-            flipped = flipped != ph.flip_before
-            dur = float(dwell[ph.dwell_index]) if ph.dwell_index is not None else ph.fixed_s
-            temps = np.array(model.temp_of(z.reshape(1, -1))).reshape(-1, model.n)
-            t_points = temps @ interp.T
-            gain = dur * weights @ model.lethality.rate(t_points)
-            lr = lr + (gain[::-1] if flipped else gain)
-            after.append(lr.copy())
-            t_rem = t_points[-1] if ph.is_removal else t_rem
-        return after, lr, t_rem
-
-
-def _point_row(model: SpectralModel, pos: ca.MX) -> ca.MX:
-    """Interpolation row (1, n) at the symbolic position ``pos`` (fraction of L from face 0).
-
-    Chebyshev series: coefficients from the nodal values, T_k(xi) by the three-term
-    recurrence (smooth in ``pos``, unlike the barycentric formula at the nodes).
-    """
-    n = model.n
-    modes = np.cos(np.pi * np.outer(np.arange(n), np.arange(n)) / (n - 1))
-    g = 1.0 - 2.0 * pos
-    alpha = getattr(model, "alpha", 0.0)
-    xi = ca.sin(g * math.asin(alpha)) / alpha if alpha > 0.0 else g
-    t = [ca.MX(1.0), xi]
-    for _ in range(2, n):
-        t.append(2.0 * xi * t[-1] - t[-2])
-    return ca.mtimes(ca.horzcat(*t[:n]), ca.DM(np.linalg.inv(modes)))
-
-
-def _point_function(model: SpectralModel) -> ca.Function:
-    """``(s_nodes, pos) -> (rate, d rate / d pos)`` at position ``pos`` (fraction of L)."""
-    s, pos = ca.MX.sym("s", model.n), ca.MX.sym("pos")
-    temp = ca.vertcat(*[model.temp_of(s[j]) for j in range(model.n)])
-    row = _point_row(model, pos)
-    t_p = ca.mtimes(row, temp)
-    dt_p = ca.jacobian(t_p, pos)
-    lm = model.lethality
-    rate = _rate(lm, t_p)
-    drate = ca.if_else(t_p < lm.cap_c, rate * math.log(10.0) / lm.z_c, 0.0) * dt_p
-    return ca.Function("point", [s, pos], [rate, drate])
-
-
-def _valley_gain(
-    planner: SensorPlanner, point: ca.Function, z: ca.MX, h: ca.MX | ca.DM, pos: ca.MX
-) -> tuple[ca.MX, ca.MX]:
-    """Log reduction gained in one phase at lab position ``pos``, and its d/d(pos)."""
-    n, m, d = planner.model.n, planner.grid.elements, planner.grid.degree
-    rate, drate = point.map(m * d)(ca.reshape(z, n, m * d), ca.repmat(pos, 1, m * d))
-    w = ca.kron(h, ca.DM(radau_coefficients(d)[1][1:]).T)
-    return ca.sum2(w * rate), ca.sum2(w * drate)
-
-
-def _sensor_transcription(planner: SensorPlanner, kinds: tuple[str, ...]) -> SimpleNamespace:
-    """The NLP of :mod:`obvert.plan.ocp` with one log-reduction row per sensor.
-
-    Same variables (scaled dwells, element lengths, accumulated log reduction per phase,
-    stage states), objective, collocation equations and IPOPT options; the lethality (and
-    minimum-temperature) rows are taken at the sensors, plus the valley point if
-    ``planner.valley`` (its position ``x_v/L`` is the last variable).
-    """
-    req, grid, n = planner.req, planner.grid, planner.model.n
-    phases = _phase_specs(kinds, planner.env, req.rest_s)
-    n_s = planner.interp.shape[0]
-    x0 = ca.MX.sym("x0", n)
-    dwell_scaled = ca.MX.sym("dwell_scaled", len(kinds) + 1)
-    blocks = [planner.block(ph.face0, ph.face1) for ph in phases]
-    stages = [ca.MX.sym(f"z{i}", b.n_stage_vars) for i, b in enumerate(blocks)]
-    v = ca.MX.sym("valley", 1 if planner.valley else 0)
-    frac = ca.DM(grid.fractions()).T
-    x, flipped, lr_food, t_removal, lr_v, dlr_v = x0, False, ca.DM.zeros(n_s), None, 0, 0
-    point = _point_function(planner.model) if planner.valley else None
-    res, h_vars, lr_vars = [], [], []
-    for ph, blk, z in zip(phases, blocks, stages, strict=True):
-        if ph.flip_before:
-            x, flipped = x[list(range(n - 1, -1, -1))], not flipped
-        if ph.dwell_index is not None:
-            h = ca.MX.sym(f"h{len(h_vars)}", 1, grid.elements)
-            h_vars.append(h)
-            dwell = DWELL_SCALE_S * dwell_scaled[ph.dwell_index]
-            res.append(ca.vec(h - dwell * frac) / DWELL_SCALE_S)
-        else:
-            h = ph.fixed_s * frac
-        r, lr_lab, x, t_end = blk.equations(x, z, h)
-        lr_var = ca.MX.sym(f"lr{len(lr_vars)}", n_s)
-        lr_vars.append(lr_var)
-        gain = lr_lab[list(range(n_s - 1, -1, -1))] if flipped else lr_lab
-        res += [r, (lr_var - lr_food - gain) / req.log_reduction]
-        lr_food = lr_var
-        t_removal = t_end if ph.is_removal else t_removal
-        if planner.valley:
-            gain_v, dgain_v = _valley_gain(planner, point, z, h, 1.0 - v if flipped else v)
-            lr_v, dlr_v = lr_v + gain_v, dlr_v + (-dgain_v if flipped else dgain_v)
-    g_ineq = [ca.log10(lr_food / req.log_reduction)]
-    if planner.valley:
-        res.append(dlr_v / req.log_reduction)
-        g_ineq.append(ca.log10(lr_v / req.log_reduction))
-    if req.min_temp_c is not None:
-        g_ineq.append((t_removal - req.min_temp_c) / 10.0)
-    g = [ca.vertcat(*res), *g_ineq]
-    w = ca.vertcat(dwell_scaled, *[ca.vec(h) for h in h_vars], *lr_vars, *stages, v)
-    nlp = {"x": w, "p": x0, "f": ca.sum1(dwell_scaled), "g": ca.vertcat(*g)}
-    return SimpleNamespace(
-        kinds=kinds,
-        phases=phases,
-        n_h=sum(int(h.numel()) for h in h_vars),
-        n_lr=n_s * len(lr_vars),
-        n_res=int(g[0].shape[0]),
-        n_g=int(nlp["g"].shape[0]),
-        lr_of=ca.Function("lr_of", [w, x0], [ca.vertcat(lr_food, lr_v) if v.numel() else lr_food]),
-        solver=ca.nlpsol("plan_sensors", "ipopt", nlp, _ipopt_options(planner.hessian)),
+    if points < 0 or points == 1:
+        raise ValueError(f"points = {points!r}: allowed 0 or an integer >= 2")
+    interp = (
+        interpolation_matrix(model, sensor_points(model.thickness_m, points)) if points else None
     )
+    done = schedule.done_s * 1.05 + 5.0
+    while True:
+        phases = phases_for(schedule.with_done(done), env)
+        hit = _first_crossing(model, phases, start_temp_c, target, interp, dt_s)
+        if hit is not None:
+            return hit
+        done *= 1.5
 
 
-def _ipopt_options(hessian: str) -> dict[str, object]:
-    """The IPOPT options of :mod:`obvert.plan.ocp` (copied so the comparison is like for like)."""
-    return {
-        "ipopt.print_level": 0,
-        "ipopt.sb": "yes",
-        "print_time": False,
-        "ipopt.tol": 1e-7,
-        "ipopt.constr_viol_tol": 1e-8,
-        "ipopt.acceptable_tol": 1e-5,
-        "ipopt.acceptable_constr_viol_tol": 1e-8,
-        "ipopt.acceptable_iter": 5,
-        "ipopt.max_iter": 300,
-        "ipopt.max_wall_time": SOLVE_BUDGET_S,
-        "ipopt.mu_strategy": "adaptive",
-        "ipopt.mumps_pivot_order": 0,
-        "ipopt.hessian_approximation": hessian,
-    }
+def _first_crossing(
+    model: SpectralModel,
+    phases: list[Phase],
+    start_temp_c: float,
+    target: float,
+    interp: Array | None,
+    dt_s: float,
+) -> float | None:
+    """First time in the last phase at which min LR >= ``target``, s (None: not reached)."""
+    n, x, t_start, mirrored = model.n, model.initial_state(start_temp_c), 0.0, False
+    lr = np.zeros(0 if interp is None else interp.shape[0])
+    rate_old = None if interp is None else model.lethality.rate(np.full(lr.size, start_temp_c))
+    for k, ph in enumerate(phases):
+        if ph.flip_before:
+            x, mirrored = np.array(model.flip(x)).ravel(), not mirrored
+        steps = max(1, math.ceil(ph.duration_s / dt_s))
+        fr = np.arange(1, steps + 1) / steps
+        traj = np.array(model.trajectory(ph.face0, ph.face1, fr)(x, ph.duration_s))
+        low_start = float(x[n:].min()) if interp is None else float(lr.min(initial=np.inf))
+        if interp is None:
+            low = traj[n:].min(axis=0)
+        else:
+            temps = np.array(model.temp_of(traj[:n].T.reshape(1, -1))).reshape(-1, n) @ interp.T
+            rate = model.lethality.rate(temps[:, ::-1] if mirrored else temps)
+            both = np.vstack([rate_old[None, :], rate])
+            cum = lr + np.cumsum(0.5 * (both[1:] + both[:-1]), axis=0) * (ph.duration_s / steps)
+            low, lr, rate_old = cum.min(axis=1), cum[-1], rate[-1]
+        if k == len(phases) - 1 and low[-1] >= target:
+            t = t_start + ph.duration_s * np.concatenate([[0.0], fr])
+            low = np.concatenate([[low_start], low])
+            i = int(np.argmax(low >= target))
+            if i == 0:
+                return float(t[0])
+            return float(np.interp(target, low[i - 1 : i + 1], t[i - 1 : i + 1]))
+        x, t_start = traj[:, -1], t_start + ph.duration_s
+    return None
