@@ -13,6 +13,13 @@ from fractions import Fraction
 from typing import Any
 
 from obvert.emit.canonical import canonical_sha256
+from obvert.emit.cells import (
+    bilinear_context,
+    cell_bytes,
+    corner_pads,
+    envelope_lines,
+    uses_cells,
+)
 from obvert.emit.filters import INT32_MAX, INT32_MIN, num
 from obvert.emit.profile import TargetProfile
 from obvert.emit.validate import EmitError
@@ -41,12 +48,15 @@ _STATUS_DOC = {
 }
 
 
-def _status_macros() -> list[tuple[str, int, str]]:
+def _status_macros(bilinear: bool) -> list[tuple[str, int, str]]:
     """``(macro suffix, value, meaning)`` of each status code."""
     out = []
     for status in LookupStatus:
         suffix = "OK" if status is LookupStatus.OK else f"ERR_{status.name}"
-        out.append((suffix, int(status), _STATUS_DOC[status]))
+        doc = _STATUS_DOC[status]
+        if bilinear and status is LookupStatus.OK:
+            doc = "a schedule was found; *out is filled"
+        out.append((suffix, int(status), doc))
     return out
 
 
@@ -78,18 +88,30 @@ def _margin_mlog(node: dict[str, Any], k: int) -> int:
     return value
 
 
-def _node_rows(manifest: dict[str, Any], target: TargetProfile) -> list[dict[str, Any]]:
-    """One row per node: events padded with copies of ``done`` up to ``max_events``."""
+def _with_pad(codes: list[int], ticks: list[int], pad: int, kinds: dict[str, Any]) -> list[int]:
+    """Ticks with ``pad`` added to done and to a platen_open at done's tick."""
+    opened = kinds.get("platen_open")
+    return [
+        t + pad if c == kinds["done"] or (c == opened and t == ticks[-1]) else t
+        for c, t in zip(codes, ticks, strict=True)
+    ]
+
+
+def _node_rows(
+    manifest: dict[str, Any], target: TargetProfile, pads: list[int]
+) -> list[dict[str, Any]]:
+    """One row per node (done pad of its corner cell added): padded with copies of done."""
     kinds = manifest["event_kinds"]
     width = int(manifest["max_events"])
     t_max = _TIME_MAX[target.time_type]
     rows = []
     for k, node in enumerate(manifest["nodes"]):
         codes = [int(kinds[e["kind"]]) for e in node["events"]]
-        ticks = [int(e["at_ticks"]) for e in node["events"]]
+        ticks = _with_pad(codes, [int(e["at_ticks"]) for e in node["events"]], pads[k], kinds)
         if ticks[-1] > t_max:
+            plus = f" (done pad {pads[k]} included)" if pads[k] else ""
             raise EmitError(
-                f"manifest field nodes[{k}].events[-1].at_ticks = {ticks[-1]}: exceeds "
+                f"manifest field nodes[{k}].events[-1].at_ticks = {ticks[-1]}{plus}: exceeds "
                 f"{target.time_type} ({t_max}) of target {target.name!r}"
             )
         pad = width - len(codes)
@@ -134,10 +156,29 @@ def _wrap(text: str) -> list[str]:
     return textwrap.wrap(" ".join(str(text).split()), _WRAP) or [""]
 
 
-def _banner(manifest: dict[str, Any], target: TargetProfile, fixed: bool) -> list[str]:
+_BILINEAR_RULE = (
+    "bilinear: the cell of the query (ci, cj) is located as for the conservative corner; "
+    "each event time is interpolated between the cell's four corner nodes with integer "
+    "weights in units of 65536 and rounded up to a whole tick; a cell certified for the "
+    "corner rule only, or whose corners differ in their event kinds, uses the conservative "
+    "corner (thickest, coldest corner node). The cell's certified done pad is added to done "
+    "(and to a platen opening at the done tick)."
+)
+
+
+def _rule_lines(manifest: dict[str, Any], target: TargetProfile) -> list[str]:
+    rule = manifest["lookup_rule"]
+    if target.lookup == "bilinear":
+        return _wrap(f"Lookup rule of this target: {_BILINEAR_RULE}")
+    return _wrap(f"Lookup rule: {rule['name']}: {rule['description']}")
+
+
+def _banner(
+    manifest: dict[str, Any], target: TargetProfile, fixed: bool, cells: list[Any]
+) -> list[str]:
     """Comment lines of the header banner (no timestamp: the header is reproducible)."""
     gen, table, safety = manifest["generator"], manifest["table"], manifest["safety"]
-    env, rule = manifest["envelope"], manifest["lookup_rule"]
+    env = manifest["envelope"]
     inputs = (
         "int32 thickness in micrometres, int32 start temperature in 0.01 degC"
         if fixed
@@ -165,14 +206,17 @@ def _banner(manifest: dict[str, Any], target: TargetProfile, fixed: bool) -> lis
             f"{safety['organism']} (D {num(safety['d_ref_s'])} s at {num(safety['t_ref_c'])} "
             f"degC, z {num(safety['z_c'])} K; source: {safety['source']}); {min_temp}."
         ),
-        *_wrap(
+    ]
+    if uses_cells(manifest, target):
+        for line in envelope_lines(manifest, target, cells):
+            lines += _wrap(line) if not line.startswith("  ") else [line]
+    else:
+        lines += _wrap(
             f"Envelope: thickness {num(env['thickness_m'][0])} to {num(env['thickness_m'][1])}"
             f" m, start temperature {num(env['start_temp_c'][0])} to "
             f"{num(env['start_temp_c'][1])} degC."
-        ),
-        *_wrap(f"Lookup rule: {rule['name']}: {rule['description']}"),
-        *_wrap(f"Lookup inputs: {inputs}."),
-    ]
+        )
+    lines += [*_rule_lines(manifest, target), *_wrap(f"Lookup inputs: {inputs}.")]
     return lines + _bound_lines(manifest)
 
 
@@ -224,13 +268,18 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
     fixed = target.number_format == "fixed"
     prefix = target.prefix_for(manifest["table"]["name"])
     axis_x, axis_t = _axes(manifest, fixed)
-    nodes = _node_rows(manifest, target)
+    bilinear = target.lookup == "bilinear"
+    t_max = _TIME_MAX[target.time_type]
+    extra = bilinear_context(manifest, target, t_max) if bilinear else {"cells": []}
+    pads = [0] * len(manifest["nodes"]) if bilinear else corner_pads(manifest)
+    nodes = _node_rows(manifest, target, pads)
     x_unit, t_unit = ("um", "cdegC") if fixed else ("mm", "degC")
     for row in nodes:
         x, t = axis_x[row["i"]], axis_t[row["j"]]
         row["label"] = f"{num(x)} {x_unit}, {num(t)} {t_unit}"
     width = int(manifest["max_events"])
     data_bytes = _data_bytes(len(axis_x), len(axis_t), len(nodes), width, target.time_type)
+    data_bytes += cell_bytes(len(extra["cells"]), target.time_type)
     budget = target.flash_budget_bytes
     if budget is not None and data_bytes > budget:
         raise EmitError(
@@ -242,7 +291,7 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
         "p": prefix,
         "P": prefix.upper(),
         "guard": f"OBVERT_{prefix.upper()}_H",
-        "banner": _banner(manifest, target, fixed),
+        "banner": _banner(manifest, target, fixed, extra["cells"]),
         "spec_hash": manifest["spec_hash"],
         "format_version": int(manifest["format_version"]),
         "fixed": fixed,
@@ -254,9 +303,13 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
         "axis_thickness": axis_x,
         "axis_start_temp": axis_t,
         "event_kinds": [(name.upper(), int(code)) for name, code in kinds],
-        "statuses": _status_macros(),
+        "statuses": _status_macros(bilinear),
         "max_events": width,
         "nodes": nodes,
         "data_bytes": data_bytes,
         "budget": budget,
+        "bilinear": bilinear,
+        "padded_rows": any(pads),
+        "has_platen_open": "platen_open" in manifest["event_kinds"],
+        **extra,
     }

@@ -9,6 +9,7 @@ A profile is data in a TOML file (``targets/*.toml``)::
     flash_budget_bytes = 65536     # optional: upper bound on the const data, bytes
     symbol_prefix = "grill_a"      # optional: C symbol prefix, default the table name
     tick_s = 0.1                   # optional: firmware tick, s; the table must match it
+    lookup = "corner"              # optional: "corner" (default) or "bilinear" lookup rule
 
     [[outputs]]
     filename = "{table}.h"         # placeholders: {table}, {prefix}
@@ -38,6 +39,7 @@ else:  # pragma: no cover - Python 3.10 only
 __all__ = ["OutputSpec", "ProfileError", "TargetProfile", "load_target", "loads_target"]
 
 NUMBER_FORMATS = ("float", "fixed")
+LOOKUP_RULES = ("corner", "bilinear")
 TIME_TYPES = ("uint16_t", "uint32_t")
 SERIALIZERS = ("canonical_json",)
 FILENAME_FIELDS = ("table", "prefix")
@@ -52,6 +54,7 @@ _TOP_KEYS = (
     "flash_budget_bytes",
     "symbol_prefix",
     "tick_s",
+    "lookup",
     "outputs",
 )
 _OUTPUT_KEYS = ("filename", "template", "serializer")
@@ -120,6 +123,9 @@ class TargetProfile:
         C symbol prefix ``[a-z][a-z0-9_]*``; None to use the table name.
     tick_s : float or None
         Firmware timer tick the target runs at, s; None to accept the table's tick.
+    lookup : str
+        Lookup rule of the generated C: ``"corner"`` (conservative corner) or
+        ``"bilinear"`` (interpolation in the cell, see ``obvert.table.lookup``).
     source : str
         Where the profile was read from (file path or ``builtin:<name>``), for messages.
     """
@@ -132,6 +138,7 @@ class TargetProfile:
     flash_budget_bytes: int | None = None
     symbol_prefix: str | None = None
     tick_s: float | None = None
+    lookup: str = "corner"
     source: str = "<python>"
 
     def __post_init__(self) -> None:
@@ -142,6 +149,7 @@ class TargetProfile:
             raise ProfileError(f"{where}: description = {self.description!r}: expected text")
         _check_choice(self.number_format, NUMBER_FORMATS, "number_format", where)
         _check_choice(self.time_type, TIME_TYPES, "time_type", where)
+        _check_choice(self.lookup, LOOKUP_RULES, "lookup", where)
         self._check_optional_fields(where)
         self._check_outputs(where)
 

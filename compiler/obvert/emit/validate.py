@@ -11,7 +11,12 @@ import re
 from collections.abc import Mapping
 from typing import Any
 
-from obvert.table.lookup import start_temp_axis_f32, thickness_axis_mm_f32
+from obvert.table.lookup import (
+    RULES,
+    cells_for_rule,
+    start_temp_axis_f32,
+    thickness_axis_mm_f32,
+)
 
 __all__ = ["SUPPORTED_FORMAT_VERSIONS", "EmitError", "check_manifest"]
 
@@ -96,6 +101,8 @@ def check_manifest(manifest: Any) -> None:
     _check_info(manifest)
     _check_event_kinds(manifest)
     _check_nodes(manifest)
+    _check_cells(manifest)
+    _check_tolerances(manifest)
 
 
 def _check_axes(manifest: Mapping[str, Any]) -> None:
@@ -203,3 +210,55 @@ def _check_event(manifest: Mapping[str, Any], event: Any, field: str, previous: 
     if ticks < previous:
         raise _fail(f"{field}.at_ticks", ticks, f"events must not go back in time ({previous})")
     return ticks
+
+
+def _check_cells(manifest: Mapping[str, Any]) -> None:
+    """Cell lists present in ``cells`` (optional field): shape, rule, pad, margin, centre."""
+    cells = manifest.get("cells")
+    if cells is None:
+        return
+    if not isinstance(cells, dict):
+        raise _fail("cells", cells, "expected an object keyed by rule name")
+    for rule in RULES:
+        if rule not in cells or (cells[rule] == [] and _n_cells(manifest) == 0):
+            continue  # absent, or an axis of one value: no cells
+        try:
+            values = cells_for_rule(manifest, rule) or []
+        except ValueError as exc:
+            raise EmitError(f"manifest field {exc}") from None
+        for k, cell in enumerate(values):
+            field = f"cells.{rule}[{k}]"
+            _num(cell, "min_margin_log", f"{field}.min_margin_log")
+            at = _get(cell, "at", f"{field}.at")
+            _num(at, "thickness_m", f"{field}.at.thickness_m")
+            _num(at, "start_temp_c", f"{field}.at.start_temp_c")
+
+
+def _n_cells(manifest: Mapping[str, Any]) -> int:
+    n_x = len(manifest["axes"]["thickness_m"])
+    n_t = len(manifest["axes"]["start_temp_c"])
+    return (n_x - 1) * (n_t - 1)
+
+
+def _check_tolerances(manifest: Mapping[str, Any]) -> None:
+    """Declared tolerances (optional field): name -> number, [low, high] or null."""
+    tolerances = manifest.get("tolerances")
+    if tolerances is None:
+        return
+    if not isinstance(tolerances, dict):
+        raise _fail("tolerances", tolerances, "expected an object of name: value")
+    for name, value in tolerances.items():
+        field = f"tolerances.{name}"
+        if not isinstance(name, str) or not _IDENT.match(name):
+            raise _fail(field, name, "tolerance names must match [a-z][a-z0-9_]*")
+        if value is None:
+            continue
+        if isinstance(value, list):
+            if len(value) != 2:
+                raise _fail(field, value, "expected a number, [low, high] or null")
+            low = _num({"v": value[0]}, "v", f"{field}[0]")
+            high = _num({"v": value[1]}, "v", f"{field}[1]")
+            if low > high:
+                raise _fail(field, value, "expected low <= high")
+            continue
+        _num(tolerances, name, field)

@@ -87,35 +87,41 @@ class PhaseBlock:
     def __init__(self, model: SpectralModel, face0: FaceBC, face1: FaceBC, grid: Grid) -> None:
         self.model, self.grid = model, grid
         n, d, m = model.n, grid.degree, grid.elements
-        s = ca.MX.sym("s", n)
+        s, time_s = ca.MX.sym("s", n), ca.MX.sym("time_s")
         t = ca.vertcat(*[model.temp_of(s[j]) for j in range(n)])
         u = ca.vertcat(*[model.kirchhoff_of(s[j]) for j in range(n)])
         dmat = ca.DM(model.d)
         q = -ca.mtimes(dmat, u)
-        q = ca.vertcat(face_flux(face0, t[0]), q[1:-1], -face_flux(face1, t[-1]))
+        q = ca.vertcat(face_flux(face0, t[0], time_s), q[1:-1], -face_flux(face1, t[-1], time_s))
         ds = -ca.mtimes(dmat, q) / model.e_scale
         lm = model.lethality
-        rate = ca.power(10.0, (ca.fmin(t, lm.cap_c) - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
-        f = ca.Function("f", [s], [ds, rate, t])
+        t_lr = model.lethality_temps(t)
+        rate = ca.power(10.0, (ca.fmin(t_lr, lm.cap_c) - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
+        f = ca.Function("f", [s, time_s], [ds, rate, t_lr])
         self.c, self.b = radau_coefficients(d)
-        # One element: start state, stage states (stage-major), length -> residuals, LR gain.
+        tau = np.concatenate([[0.0], np.array(ca.collocation_points(d, "radau"))])
+        # One element: start state, stage states (stage-major), length, start time (s from
+        # loading) -> residuals, LR gain, temperatures at the lethality points at its end.
         xs, zs, h = ca.MX.sym("xs", n), ca.MX.sym("zs", n * d), ca.MX.sym("h")
+        t0 = ca.MX.sym("t0")
         pts = [xs] + [zs[r * n : (r + 1) * n] for r in range(d)]
         res, lr, t_end = [], 0, None
         for r in range(1, d + 1):
-            ds_r, rate_r, t_r = f(pts[r])
+            ds_r, rate_r, t_r = f(pts[r], t0 + float(tau[r]) * h)
             xp = sum(float(self.c[j, r]) * pts[j] for j in range(d + 1))
             res.append(xp - h * ds_r)
             lr = lr + h * float(self.b[r]) * rate_r
             t_end = t_r
-        elem = ca.Function("element", [xs, zs, h], [ca.vertcat(*res), lr, t_end])
+        elem = ca.Function("element", [xs, zs, h, t0], [ca.vertcat(*res), lr, t_end])
         self._elem = elem.map(m)
         self.n_stage_vars = n * m * d
 
     def equations(
-        self, x_start: ca.MX, stages: ca.MX, h_s: ca.MX
+        self, x_start: ca.MX, stages: ca.MX, h_s: ca.MX, t_start: ca.MX | float = 0.0
     ) -> tuple[ca.MX, ca.MX, ca.MX, ca.MX]:
         """Collocation residuals, lab-frame log reduction gained, end state, end temperatures.
+
+        The log reduction and the end temperatures are at the model's lethality points.
 
         Parameters
         ----------
@@ -126,10 +132,13 @@ class PhaseBlock:
         h_s : MX (1, elements)
             Element lengths, s (their own variables when the dwell is free, so that the
             dwell couples to a few equations only and the KKT matrix stays sparse).
+        t_start : MX or float
+            Time of the phase start from loading, s (drives a drooping plate).
         """
         n, d, m = self.model.n, self.grid.degree, self.grid.elements
         z = ca.reshape(stages, n * d, m)
         ends = z[(d - 1) * n :, :]
         starts = ca.horzcat(x_start, ends[:, : m - 1])
-        res, lr, t_end = self._elem(starts, z, h_s)
+        offsets = ca.horzcat(ca.DM.zeros(1, 1), ca.cumsum(h_s[:, : m - 1], 1)) if m > 1 else 0
+        res, lr, t_end = self._elem(starts, z, h_s, t_start + offsets)
         return ca.vec(res), ca.sum2(lr), ends[:, m - 1], t_end[:, m - 1]

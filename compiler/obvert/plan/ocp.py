@@ -15,6 +15,7 @@ from dataclasses import dataclass
 import casadi as ca
 import numpy as np
 
+from obvert.plan._nlp import DWELL_SCALE_S, PlanError, Transcription, phase_specs
 from obvert.plan.collocation import Grid, PhaseBlock
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
@@ -65,119 +66,30 @@ class PlanResult:
     dwell_s: tuple[float, ...]
 
 
-#: Dwell decision variables are in units of this many seconds (keeps IPOPT steps balanced).
-DWELL_SCALE_S = 100.0
-
-#: Wall-clock budget of one IPOPT solve, s; a solve that needs longer counts as failed.
-SOLVE_BUDGET_S = 90.0
-
-
-class PlanError(RuntimeError):
-    """A minimum-time problem could not be solved."""
-
-
 @dataclass(frozen=True)
-class _PhaseSpec:
-    face0: FaceBC
-    face1: FaceBC
-    flip_before: bool
-    dwell_index: int | None  # decision variable index, or None for a fixed duration
-    fixed_s: float
-    is_removal: bool  # the phase that ends when the food leaves the plate
+class Member:
+    """One scenario a plan must satisfy: a slab model on an appliance, start offset.
 
+    Attributes
+    ----------
+    model : SpectralModel
+        Reduced model of the slab (its thickness and food properties).
+    env : Surroundings
+        Plate, air and platen conditions.
+    start_offset_k : float
+        Added to the requested start temperature, K (e.g. minus the measurement error).
+    """
 
-class _Transcription:
-    """The NLP of one event sequence on one model (built once, solved per start temperature)."""
-
-    def __init__(self, planner: Planner, kinds: tuple[str, ...]) -> None:
-        self.kinds = kinds
-        model, env, req = planner.model, planner.env, planner.req
-        self.phases = _phase_specs(kinds, env, req.rest_s)
-        self.n_dwell = len(kinds) + 1
-        n = model.n
-        x0 = ca.MX.sym("x0", n)
-        dwell_scaled = ca.MX.sym("dwell_scaled", self.n_dwell)
-        dwell = DWELL_SCALE_S * dwell_scaled
-        blocks = [planner.block(ph.face0, ph.face1) for ph in self.phases]
-        stages = [ca.MX.sym(f"z{i}", b.n_stage_vars) for i, b in enumerate(blocks)]
-        x, flipped, lr_food = x0, False, ca.DM.zeros(n)
-        res, t_removal = [], None
-        rev = list(range(n - 1, -1, -1))
-        frac = ca.DM(planner.grid.fractions()).T
-        h_vars, lr_vars = [], []
-        for ph, blk, z in zip(self.phases, blocks, stages, strict=True):
-            if ph.flip_before:
-                x, flipped = x[rev], not flipped
-            if ph.dwell_index is not None:
-                h = ca.MX.sym(f"h{len(h_vars)}", 1, planner.grid.elements)
-                h_vars.append(h)
-                res.append(ca.vec(h - dwell[ph.dwell_index] * frac) / DWELL_SCALE_S)
-            else:
-                h = ph.fixed_s * frac
-            r, lr_lab, x, t_end = blk.equations(x, z, h)
-            res.append(r)
-            # Accumulated log reduction as variables: keeps the Hessian local to each element.
-            lr_var = ca.MX.sym(f"lr{len(lr_vars)}", n)
-            lr_vars.append(lr_var)
-            res.append(
-                (lr_var - lr_food - (lr_lab[rev] if flipped else lr_lab)) / req.log_reduction
-            )
-            lr_food = lr_var
-            if ph.is_removal:
-                t_removal = t_end
-        g = [ca.vertcat(*res), ca.log10(lr_food / req.log_reduction)]
-        if req.min_temp_c is not None:
-            g.append((t_removal - req.min_temp_c) / 10.0)
-        self.n_res = int(g[0].shape[0])
-        w = ca.vertcat(dwell_scaled, *[ca.vec(h) for h in h_vars], *lr_vars, *stages)
-        self.n_h = sum(int(h.numel()) for h in h_vars)
-        self.n_lr = n * len(lr_vars)
-        self.lr_of = ca.Function("lr_of", [w, x0], [lr_food])
-        nlp = {"x": w, "p": x0, "f": ca.sum1(dwell_scaled), "g": ca.vertcat(*g)}
-        opts = {
-            "ipopt.print_level": int(__import__("os").environ.get("OBVERT_IPOPT_PRINT", "0")),
-            "ipopt.sb": "yes",
-            "print_time": bool(__import__("os").environ.get("OBVERT_IPOPT_PRINT")),
-            "show_eval_warnings": False,
-            "ipopt.tol": 1e-7,
-            "ipopt.constr_viol_tol": 1e-8,
-            "ipopt.acceptable_tol": 1e-5,
-            "ipopt.acceptable_constr_viol_tol": 1e-8,
-            "ipopt.acceptable_iter": 5,
-            "ipopt.max_iter": 300,
-            "ipopt.max_wall_time": SOLVE_BUDGET_S,
-            "ipopt.mu_strategy": "adaptive",
-            "ipopt.mumps_pivot_order": 0,
-            "ipopt.print_timing_statistics": "yes"
-            if __import__("os").environ.get("OBVERT_IPOPT_PRINT")
-            else "no",
-            "ipopt.hessian_approximation": planner.hessian,
-        }
-        self.solver = ca.nlpsol("plan", "ipopt", nlp, opts)
-        self.n_g = int(nlp["g"].shape[0])
-
-
-def _phase_specs(kinds: tuple[str, ...], env: Surroundings, rest_s: float) -> list[_PhaseSpec]:
-    """Phases of an event sequence: a free dwell before each event, fixed flip air times."""
-    out: list[_PhaseSpec] = []
-    top = env.air
-    for k, kind in enumerate((*kinds, "done")):
-        out.append(_PhaseSpec(env.plate, top, False, k, 0.0, kind == "done"))
-        if kind == "flip":
-            out.append(_PhaseSpec(env.air, env.air, True, None, env.flip_air_s, False))
-        elif kind == "platen_close":
-            if env.platen is None:
-                raise PlanError("the sequence closes a platen but the appliance has none")
-            top = env.platen
-        elif kind == "platen_open":
-            top = env.air
-    if rest_s > 0.0:
-        out.append(_PhaseSpec(env.air, env.air, False, None, rest_s, False))
-    return out
+    model: SpectralModel
+    env: Surroundings
+    start_offset_k: float = 0.0
 
 
 class Planner:
     """Minimum-time planner for one slab thickness on one appliance.
+
+    With ``extra`` scenarios the plan is robust: one schedule (shared event times) must
+    meet the target in the main scenario and in every extra one at once.
 
     Parameters
     ----------
@@ -191,6 +103,8 @@ class Planner:
         Minimum time between consecutive events (and from loading to the first), s.
     grid : Grid
         Collocation elements per phase.
+    extra : sequence of Member
+        Further scenarios the same schedule must satisfy (same flip air time).
     """
 
     def __init__(
@@ -200,60 +114,71 @@ class Planner:
         requirement: Requirement,
         min_gap_s: float,
         grid: Grid | None = None,
+        extra: tuple[Member, ...] = (),
     ) -> None:
         self.model = model
         self.env = env
+        self.members = (Member(model, env), *extra)
+        for k, mem in enumerate(self.members):
+            if mem.env.flip_air_s != env.flip_air_s:
+                raise ValueError(f"extra[{k - 1}].env.flip_air_s differs from the main scenario")
         self.req = requirement
         self.min_gap_s = float(min_gap_s)
         self.grid = grid or Grid()
         self.hessian = "exact"
-        self._blocks: dict[tuple[FaceBC, FaceBC], PhaseBlock] = {}
-        self._traj: dict[tuple[FaceBC, FaceBC], ca.Function] = {}
-        self._nlps: dict[tuple[str, ...], _Transcription] = {}
-        self._warm: dict[tuple[str, ...], tuple[np.ndarray, np.ndarray, np.ndarray]] = {}
+        self._blocks: dict[tuple[int, FaceBC, FaceBC], PhaseBlock] = {}
+        self._traj: dict[tuple[int, FaceBC, FaceBC], ca.Function] = {}
+        self._nlps: dict[tuple[str, ...], Transcription] = {}
 
-    def block(self, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
-        """Collocation block for a pair of face conditions (cached)."""
-        key = (face0, face1)
+    def block(self, k: int, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
+        """Collocation block of scenario ``k`` for a pair of face conditions (cached)."""
+        key = (k, face0, face1)
         if key not in self._blocks:
-            self._blocks[key] = PhaseBlock(self.model, face0, face1, self.grid)
+            self._blocks[key] = PhaseBlock(self.members[k].model, face0, face1, self.grid)
         return self._blocks[key]
 
-    def _trajectory(self, face0: FaceBC, face1: FaceBC) -> ca.Function:
-        key = (face0, face1)
+    def _trajectory(self, k: int, face0: FaceBC, face1: FaceBC) -> ca.Function:
+        key = (k, face0, face1)
         if key not in self._traj:
-            self._traj[key] = self.model.trajectory(face0, face1, self.grid.stage_times())
+            model = self.members[k].model
+            self._traj[key] = model.trajectory(face0, face1, self.grid.stage_times())
         return self._traj[key]
 
     def _simulate(
-        self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray
-    ) -> tuple[list[np.ndarray], np.ndarray, np.ndarray]:
-        """Reduced-model simulation (CVODES): stage states, food-frame LR, removal temps."""
-        n = self.model.n
-        x = self.model.initial_state(start_temp_c)
-        stages, lr, flipped, t_rem = [], np.zeros(n), False, np.zeros(n)
+        self, k: int, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray
+    ) -> tuple[list[np.ndarray], list[np.ndarray], np.ndarray, np.ndarray]:
+        """Scenario ``k`` on the reduced model (CVODES; a drooping plate at its lowest).
+
+        Returns the stage states per phase, the food-frame LR after each phase, the final
+        LR and the temperatures at removal, all at the lethality points.
+        """
+        mem = self.members[k]
+        model, n = mem.model, mem.model.n
+        x = model.initial_state(start_temp_c + mem.start_offset_k)
+        stages, lr, flipped, t_rem = [], np.zeros(model.m), False, np.zeros(model.m)
         lr_after: list[np.ndarray] = []
-        for ph in _phase_specs(kinds, self.env, self.req.rest_s):
+        for ph in phase_specs(kinds, mem.env, self.req.rest_s):
             if ph.flip_before:
-                x, flipped = np.array(self.model.flip(x)).ravel(), not flipped
+                x, flipped = np.array(model.flip(x)).ravel(), not flipped
             dur = float(dwell[ph.dwell_index]) if ph.dwell_index is not None else ph.fixed_s
-            traj = np.array(self._trajectory(ph.face0, ph.face1)(x, dur))
+            traj = np.array(self._trajectory(k, ph.face0, ph.face1)(x, dur))
             stages.append(traj[:n, :].T.ravel())
             lr_lab = traj[n:, -1] - x[n:]
             lr = lr + (lr_lab[::-1] if flipped else lr_lab)
             lr_after.append(lr.copy())
             x = traj[:, -1]
             if ph.is_removal:
-                t_rem = np.array(self.model.temperatures(x)).ravel()
-        self._last_lr_after = lr_after
-        return stages, lr, t_rem
+                t_rem = np.array(model.lethality_temps(model.temperatures(x))).ravel()
+        return stages, lr_after, lr, t_rem
 
     def _meets(self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray) -> bool:
-        _, lr, t_rem = self._simulate(kinds, start_temp_c, dwell)
-        ok = lr.min() >= self.req.log_reduction
-        if self.req.min_temp_c is not None:
-            ok = ok and t_rem.min() >= self.req.min_temp_c
-        return bool(ok)
+        for k in range(len(self.members)):
+            _, _, lr, t_rem = self._simulate(k, kinds, start_temp_c, dwell)
+            if lr.min() < self.req.log_reduction:
+                return False
+            if self.req.min_temp_c is not None and t_rem.min() < self.req.min_temp_c:
+                return False
+        return True
 
     # -- public ----------------------------------------------------------------------
     def lower_bounds(self, kinds: tuple[str, ...]) -> np.ndarray:
@@ -295,7 +220,7 @@ class Planner:
         converged solution wins. A start that fails is skipped; if all fail, PlanError.
         """
         if kinds not in self._nlps:
-            self._nlps[kinds] = _Transcription(self, kinds)
+            self._nlps[kinds] = Transcription(self, kinds)
         tr = self._nlps[kinds]
         guess = self.feasible_guess(kinds, start_temp_c)
         lb = self.lower_bounds(kinds)
@@ -317,34 +242,34 @@ class Planner:
 
     def _solve_from(
         self,
-        tr: _Transcription,
+        tr: Transcription,
         start_temp_c: float,
         start: np.ndarray,
         lb: np.ndarray,
         ub: np.ndarray,
     ) -> PlanResult:
         kinds = tr.kinds
-        x0 = self.model.initial_state(start_temp_c)[: self.model.n]
-        stages, _, _ = self._simulate(kinds, start_temp_c, start)
         frac = self.grid.fractions()
-        h0 = [start[ph.dwell_index] * frac for ph in tr.phases if ph.dwell_index is not None]
-        lr0 = list(self._last_lr_after)
-        w0 = np.concatenate([start / DWELL_SCALE_S, *h0, *lr0, *stages])
-        n_z = w0.size - lb.size - tr.n_h - tr.n_lr
-        lbx = np.concatenate(
-            [lb / DWELL_SCALE_S, np.zeros(tr.n_h), np.full(tr.n_lr, 1e-300), np.full(n_z, -0.05)]
+        w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
+        p = []
+        for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
+            t0 = start_temp_c + mem.start_offset_k
+            stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
+            scale = np.maximum(lr_after[-1], self.req.log_reduction)
+            p += [mem.model.initial_state(t0)[: mem.model.n], scale]
+            h0 = [start[ph.dwell_index] * frac for ph in tr.phases if ph.dwell_index is not None]
+            w0 += [*h0, *[v / scale for v in lr_after], *stages]
+            lbx += [np.zeros(lay.n_h), np.full(lay.n_lr, 1e-300), np.full(lay.n_z, -0.05)]
+            ubx += [np.full(lay.n_h, ub.max()), np.full(lay.n_lr, np.inf), np.full(lay.n_z, 1.05)]
+        n_ineq = tr.n_g - tr.n_res
+        sol = tr.solver(
+            x0=np.concatenate(w0),
+            p=np.concatenate(p),
+            lbx=np.concatenate(lbx),
+            ubx=np.concatenate(ubx),
+            lbg=np.zeros(tr.n_g),
+            ubg=np.concatenate([np.zeros(tr.n_res), np.full(n_ineq, np.inf)]),
         )
-        ubx = np.concatenate(
-            [
-                ub / DWELL_SCALE_S,
-                np.full(tr.n_h, ub.max()),
-                np.full(tr.n_lr, np.inf),
-                np.full(n_z, 1.05),
-            ]
-        )
-        lbg = np.concatenate([np.zeros(tr.n_res), np.zeros(tr.n_g - tr.n_res)])
-        ubg = np.concatenate([np.zeros(tr.n_res), np.full(tr.n_g - tr.n_res, np.inf)])
-        sol = tr.solver(x0=w0, p=x0, lbx=lbx, ubx=ubx, lbg=lbg, ubg=ubg)
         status = str(tr.solver.stats()["return_status"])
         w = np.array(sol["x"]).ravel()
         g = np.array(sol["g"]).ravel()
@@ -355,7 +280,7 @@ class Planner:
                 f"(largest constraint violation {viol:.3g})"
             )
         dwell = w[: lb.size] * DWELL_SCALE_S
-        lr = np.array(tr.lr_of(w, x0)).ravel()
+        lr = np.array(tr.lr_of(w, np.concatenate(p))).ravel()
         schedule = self.schedule_of(kinds, dwell)
         return PlanResult(schedule, schedule.done_s, float(lr.min()), status, tuple(dwell))
 

@@ -24,6 +24,7 @@ from obvert.spec.model import (
     PropertyValue,
     SafetySpec,
     Spec,
+    ToleranceSpec,
 )
 from obvert.spec.units import quantity
 
@@ -293,13 +294,60 @@ def _planning(sec: _Section | None) -> PlanningSpec:
         flip_cost_s=_range_check(
             sec._p("flip_cost"), 0.0 if cost is None else cost, 0.0, 600.0, "s"
         ),
-        spectral_nodes=sec.integer("spectral_nodes", 6, 32, 12),
+        spectral_nodes=sec.integer("spectral_nodes", 6, 32, 16),
+        lethality_points=_lethality_points(sec),
         elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
         reference_cells=sec.integer("reference_cells", 40, 2000, 200),
         reference_dt_s=sec.number("reference_dt_s", 0.005, 1.0, 0.05),
     )
     sec.done()
     return out
+
+
+def _lethality_points(sec: _Section) -> int:
+    n = sec.integer("lethality_points", 0, 401, 21)
+    if 0 < n < 3:
+        raise SpecError(sec._p("lethality_points"), n, "0 (at the nodes) or 3 to 401")
+    return n
+
+
+def _tolerances(sec: _Section | None, food: FoodSpec) -> ToleranceSpec:
+    if sec is None:
+        return ToleranceSpec()
+
+    def diff(key: str, kind: str, hi: float, unit: str) -> float:
+        v = sec.qty(key, kind, None)
+        return 0.0 if v is None else _range_check(sec._p(key), v, 0.0, hi, unit)
+
+    offset = diff("plate_offset", "temperature_difference", 60.0, "K")
+    droop = diff("plate_droop", "temperature_difference", 60.0, "K")
+    rec = sec.qty("plate_recovery", "time", None)
+    recovery = 30.0 if rec is None else _range_check(sec._p("plate_recovery"), rec, 0.1, 600.0, "s")
+    if rec is not None and droop == 0.0:
+        raise SpecError(sec._p("plate_recovery"), rec, "only together with plate_droop > 0")
+    contact = sec.number("contact_low", 0.0, 0.5, 0.0)
+    thick = diff("thickness_error", "length", 0.005, "m")
+    temp = diff("start_temp_error", "temperature_difference", 10.0, "K")
+    fat = _fat_range(sec, food)
+    sec.done()
+    return ToleranceSpec(offset, droop, recovery, contact, thick, temp, fat)
+
+
+def _fat_range(sec: _Section, food: FoodSpec) -> tuple[float, float] | None:
+    raw = sec.raw("fat_fraction", None)
+    if raw is None:
+        return None
+    path = sec._p("fat_fraction")
+    ok = isinstance(raw, list) and len(raw) == 2
+    ok = ok and all(isinstance(v, int | float) and not isinstance(v, bool) for v in raw)
+    if not ok or not 0.0 <= raw[0] <= raw[1] < 0.9:
+        raise SpecError(path, raw, "[low, high] mass fractions with 0 <= low <= high < 0.9")
+    if food.composition is None:
+        raise SpecError(path, raw, "a fat range only for a food given by [food.composition]")
+    fat = food.composition.fat
+    if not raw[0] <= fat <= raw[1]:
+        raise SpecError(path, raw, f"a range that holds the nominal fat fraction {fat:g}")
+    return (float(raw[0]), float(raw[1]))
 
 
 def spec_from_dict(data: dict[str, Any]) -> Spec:
@@ -326,6 +374,7 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
     appliance = _appliance(top.section("appliance"))
     safety = _safety(top.section("safety"))
     planning = _planning(top.section("planning", required=False))
+    tolerances = _tolerances(top.section("tolerances", required=False), food)
     out_sec = top.section("outputs", required=False) or _Section({}, "outputs")
     targets = out_sec.raw("targets", ["c99", "json"])
     if not isinstance(targets, list) or not targets or not all(isinstance(t, str) for t in targets):
@@ -334,7 +383,7 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
     top.done()
     if safety.min_temp_c is not None and safety.min_temp_c >= appliance.plate_temp_c:
         raise SpecError("safety.min_temperature", safety.min_temp_c, "below the plate temperature")
-    return Spec(name, title, food, grid, appliance, safety, planning, tuple(targets))
+    return Spec(name, title, food, grid, appliance, safety, planning, tuple(targets), tolerances)
 
 
 def load_spec(path: str | Path) -> Spec:

@@ -170,7 +170,9 @@ class PlanningSpec:
     flip_cost_s : float
         Cook-time equivalent charged per flip when choosing the flip count, s.
     spectral_nodes : int
-        Chebyshev nodes of the reduced model, -.
+        Chebyshev nodes of the reduced model (its enthalpy states), -.
+    lethality_points : int
+        Equally spaced points where the reduced model integrates the log reduction, -.
     elements_per_phase : int
         Collocation elements per phase, -.
     reference_cells : int
@@ -181,9 +183,54 @@ class PlanningSpec:
 
     flip_cost_s: float
     spectral_nodes: int
+    lethality_points: int
     elements_per_phase: int
     reference_cells: int
     reference_dt_s: float
+
+
+@dataclass(frozen=True)
+class ToleranceSpec:
+    """How far the real appliance and food may stray from nominal; all default to zero.
+
+    Attributes
+    ----------
+    plate_offset_k : float
+        Heated surfaces (plate and platen) may sit this far below their setpoint, K.
+    plate_droop_k : float
+        Further drop of the heated surfaces when a cold load lands, K; it recovers
+        exponentially with time constant ``plate_recovery_s``.
+    plate_recovery_s : float
+        Recovery time constant of the droop, s.
+    contact_low_fraction : float
+        Contact coefficients (plate and platen) may be this fraction below nominal, -.
+    thickness_error_m : float
+        The measured thickness may be off by up to this much either way, m.
+    start_temp_error_k : float
+        The measured start temperature may be off by up to this much either way, K.
+    fat_fraction : tuple of float or None
+        Range of the fat mass fraction (composition foods only), -; None: nominal only.
+    """
+
+    plate_offset_k: float = 0.0
+    plate_droop_k: float = 0.0
+    plate_recovery_s: float = 30.0
+    contact_low_fraction: float = 0.0
+    thickness_error_m: float = 0.0
+    start_temp_error_k: float = 0.0
+    fat_fraction: tuple[float, float] | None = None
+
+    @property
+    def any(self) -> bool:
+        """True when at least one tolerance is declared."""
+        return bool(
+            self.plate_offset_k
+            or self.plate_droop_k
+            or self.contact_low_fraction
+            or self.thickness_error_m
+            or self.start_temp_error_k
+            or self.fat_fraction is not None
+        )
 
 
 @dataclass(frozen=True)
@@ -208,6 +255,8 @@ class Spec:
         Planner settings.
     targets : tuple of str
         Output target profiles to emit by default.
+    tolerances : ToleranceSpec
+        Declared tolerances of appliance and food.
     """
 
     name: str
@@ -218,6 +267,7 @@ class Spec:
     safety: SafetySpec
     planning: PlanningSpec
     targets: tuple[str, ...]
+    tolerances: ToleranceSpec = ToleranceSpec()
 
     def to_dict(self) -> dict[str, object]:
         """JSON-safe nested dict of the spec in SI units (tuples become lists)."""

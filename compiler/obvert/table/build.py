@@ -10,15 +10,16 @@ from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, replace
 
-from obvert.food.factory import food_table
 from obvert.food.lethality import LethalityModel
+from obvert.food.table import PropertyTable
 from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
-from obvert.plan.ocp import PlanError, Planner, Requirement
+from obvert.plan.ocp import Member, PlanError, Planner, Requirement
 from obvert.plan.quantize import quantize, to_ticks
 from obvert.plan.schedule import Schedule, Surroundings
 from obvert.spec.model import Spec
 from obvert.table.certify import Case, CertificationError, certify
+from obvert.table.scenarios import nominal, scenarios
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.reference import ReferenceSettings
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
@@ -80,6 +81,9 @@ class Node:
         Every flip count tried.
     bounds_s : tuple of (str, float or None)
         Physical limits of the cook time on the reduced model (see obvert.plan.bounds), s.
+    nominal_planned_s : float or None
+        Cook time the same event sequence would need at nominal conditions (no
+        tolerances), s; None when no tolerances are declared (the plan is nominal).
     """
 
     i: int
@@ -94,6 +98,7 @@ class Node:
     min_temp_at_removal_c: float
     candidates: tuple[Candidate, ...]
     bounds_s: tuple[tuple[str, float | None], ...] = ()
+    nominal_planned_s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -186,28 +191,80 @@ def build(spec: Spec, progress: Progress | None = None, jobs: int = 1) -> CookTa
 
 def _row(spec: Spec, i: int, say: Progress | None) -> list[Node]:
     """All nodes of thickness row ``i`` (one planner, reused across start temperatures)."""
-    table = food_table(spec.food)
     env, leth, req = surroundings(spec), lethality_of(spec), requirement_of(spec)
     ref = ReferenceSettings(spec.planning.reference_cells, spec.planning.reference_dt_s)
     thick = spec.grid.thickness_m[i]
     n_s = len(spec.grid.start_temp_c)
-    model = SpectralModel(table, thick, leth, SpectralSettings(spec.planning.spectral_nodes))
+    grid = Grid(spec.planning.elements_per_phase)
+    scens = scenarios(spec, env)
+    members = [Member(_model(spec, s.table, thick + s.thickness_offset_m), s.env) for s in scens]
     planner = Planner(
-        model, env, req, spec.appliance.min_event_gap_s, Grid(spec.planning.elements_per_phase)
+        members[0].model,
+        members[0].env,
+        req,
+        spec.appliance.min_event_gap_s,
+        grid,
+        extra=tuple(members[1:]),
     )
-    limits = BoundPlanners(model, env, req, Grid(spec.planning.elements_per_phase))
+    nominal_planner = None
+    if spec.tolerances.any:
+        nom = nominal(spec, env)
+        nominal_planner = Planner(
+            _model(spec, nom.table, thick), env, req, spec.appliance.min_event_gap_s, grid
+        )
+    limits = BoundPlanners(members[0].model, members[0].env, req, grid)
     out = []
     for j, t0 in enumerate(spec.grid.start_temp_c):
         if say is not None:
             n_all = len(spec.grid.thickness_m) * n_s
             say(f"node {i * n_s + j + 1}/{n_all}: {thick * 1e3:g} mm, {t0:g} degC")
-        node = _node(spec, planner, Case(table, thick, t0, env, leth, req, ref), i, j)
-        out.append(replace(node, bounds_s=tuple(sorted(limits.solve(t0).items()))))
+        cases = [
+            Case(
+                s.table,
+                thick + s.thickness_offset_m,
+                t0 + s.start_offset_k,
+                s.env,
+                leth,
+                req,
+                ref,
+            )
+            for s in scens
+        ]
+        node = _node(spec, planner, cases, i, j, (thick, t0))
+        t_worst = t0 + scens[0].start_offset_k
+        node = replace(node, bounds_s=tuple(sorted(limits.solve(t_worst).items())))
+        if nominal_planner is not None:
+            node = replace(node, nominal_planned_s=_nominal(nominal_planner, node, t0))
+        out.append(node)
     return out
 
 
-def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
-    cell = f"node (thickness {case.thickness_m * 1e3:g} mm, start {case.start_temp_c:g} degC)"
+def _model(spec: Spec, table: PropertyTable, thickness_m: float) -> SpectralModel:
+    settings = SpectralSettings(
+        spec.planning.spectral_nodes, lethality_points=spec.planning.lethality_points
+    )
+    return SpectralModel(table, thickness_m, lethality_of(spec), settings)
+
+
+def _nominal(planner: Planner, node: Node, t0: float) -> float | None:
+    """Nominal-conditions optimum of the node's chosen event sequence, s (None: failed)."""
+    kinds = tuple(e.kind for e in node.schedule.events[:-1] if e.kind != "platen_open")
+    try:
+        return planner.solve(kinds, t0).cook_time_s
+    except PlanError:
+        return None
+
+
+def _node(
+    spec: Spec,
+    planner: Planner,
+    cases: list[Case],
+    i: int,
+    j: int,
+    at: tuple[float, float],
+) -> Node:
+    cell = f"node (thickness {at[0] * 1e3:g} mm, start {at[1]:g} degC)"
+    t_plan = cases[0].start_temp_c
     cands: list[Candidate] = []
     best: tuple[float, Schedule] | None = None
     prev: tuple[float, ...] | None = None
@@ -216,7 +273,7 @@ def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
         closing = "platen_close" in seq
         seeds = () if prev is None or closing else (_split_last(prev, spec.appliance.flip_air_s),)
         try:
-            res = planner.solve(seq, case.start_temp_c, seeds)
+            res = planner.solve(seq, t_plan, seeds)
         except PlanError as exc:
             cands.append(Candidate(flips, None, str(exc), seq))
             prev = None if not closing else prev
@@ -235,7 +292,7 @@ def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
     a = spec.appliance
     ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
     try:
-        cert = certify(case, ticked, a.tick_s)
+        cert = certify(cases, ticked, a.tick_s)
     except CertificationError as exc:
         raise BuildError(f"{cell}: {exc}") from None
     for ev in cert.schedule.events:  # every emitted time is a whole tick
@@ -244,8 +301,8 @@ def _node(spec: Spec, planner: Planner, case: Case, i: int, j: int) -> Node:
     return Node(
         i=i,
         j=j,
-        thickness_m=case.thickness_m,
-        start_temp_c=case.start_temp_c,
+        thickness_m=at[0],
+        start_temp_c=at[1],
         schedule=cert.schedule,
         planned_cook_time_s=plan.done_s,
         correction_s=cert.correction_s,

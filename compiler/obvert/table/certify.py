@@ -11,6 +11,7 @@ schedule that is emitted.
 from __future__ import annotations
 
 import math
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import numpy as np
@@ -115,15 +116,26 @@ def judge(case: Case, schedule: Schedule) -> Verdict:
     return Verdict(lr, t_min, bool(ok))
 
 
+def judge_all(cases: Sequence[Case], schedule: Schedule) -> Verdict:
+    """The worst verdict of ``schedule`` over several scenarios (all must pass)."""
+    verdicts = [judge(c, schedule) for c in cases]
+    return Verdict(
+        min(v.min_log_reduction for v in verdicts),
+        min(v.min_temp_at_removal_c for v in verdicts),
+        all(v.passed for v in verdicts),
+    )
+
+
 def certify(
-    case: Case, schedule: Schedule, tick_s: float, max_extension: float = 1.0
+    case: Case | Sequence[Case], schedule: Schedule, tick_s: float, max_extension: float = 1.0
 ) -> Certificate:
     """Certify ``schedule`` (ticks) on the reference model, extending done if needed.
 
     Parameters
     ----------
-    case : Case
-        Food, appliance, target and reference settings.
+    case : Case or sequence of Case
+        Food, appliance, target and reference settings; with several (the tolerance
+        scenarios of one node) the schedule must pass in every one.
     schedule : Schedule
         Event times that are whole multiples of ``tick_s``, s.
     tick_s : float
@@ -136,23 +148,25 @@ def certify(
     CertificationError
         No extension up to ``max_extension`` passes.
     """
+    cases = (case,) if isinstance(case, Case) else tuple(case)
+    first = cases[0]
     planned = schedule.done_s
     done_ticks = round(planned / tick_s)
-    verdict = judge(case, schedule)
+    verdict = judge_all(cases, schedule)
     if verdict.passed:
         return Certificate(
-            schedule, verdict, 0.0, verdict.min_log_reduction - case.requirement.log_reduction
+            schedule, verdict, 0.0, verdict.min_log_reduction - first.requirement.log_reduction
         )
     limit = done_ticks + max(1, math.ceil(max_extension * done_ticks))
     lo, step, hi = done_ticks, 1, None
     while hi is None:
         trial = min(done_ticks + step, limit)
-        v = judge(case, schedule.with_done(trial * tick_s))
+        v = judge_all(cases, schedule.with_done(trial * tick_s))
         if v.passed:
             hi, verdict = trial, v
         elif trial >= limit:
             raise CertificationError(
-                f"thickness {case.thickness_m * 1e3:g} mm, start {case.start_temp_c:g} degC: "
+                f"thickness {first.thickness_m * 1e3:g} mm, start {first.start_temp_c:g} degC: "
                 f"the schedule still misses the target after extending done from {planned:.1f} s "
                 f"to {trial * tick_s:.1f} s (smallest log reduction {v.min_log_reduction:.3g}, "
                 f"coldest point at removal {v.min_temp_at_removal_c:.1f} degC)"
@@ -161,7 +175,7 @@ def certify(
             lo, step = trial, step * 2
     while hi - lo > 1:
         mid = (lo + hi) // 2
-        v = judge(case, schedule.with_done(mid * tick_s))
+        v = judge_all(cases, schedule.with_done(mid * tick_s))
         if v.passed:
             hi, verdict = mid, v
         else:
@@ -171,5 +185,5 @@ def certify(
         fixed,
         verdict,
         fixed.done_s - planned,
-        verdict.min_log_reduction - case.requirement.log_reduction,
+        verdict.min_log_reduction - first.requirement.log_reduction,
     )

@@ -27,9 +27,12 @@ Time
 ----
 TR-BDF2 with gamma = 2 - sqrt(2): a trapezoid stage to t + gamma dt, then BDF2 to t + dt.
 One-step, second order, L-stable; both stages have the implicit weight gamma/2 * dt, so the
-two Newton matrices have the same form. Newton iterates are projected onto the table range;
-if a step still fails to converge (only seen for steps some 200 times the default on thin
-slabs, where the thawing front makes Newton cycle) it is replaced by two half steps.
+two Newton matrices have the same form. A plate that droops after loading
+(:meth:`FaceBC.t_inf_at`) is evaluated at the time of each implicit stage, t + gamma dt and
+t + dt, and at the phase start for the rate that starts the phase. Newton iterates are
+projected onto the table range; if a step still fails to converge (only seen for steps some
+200 times the default on thin slabs, where the thawing front makes Newton cycle) it is
+replaced by two half steps.
 """
 
 from __future__ import annotations
@@ -133,20 +136,34 @@ class Props:
 
 @dataclass(frozen=True)
 class Faces:
-    """Boundary data of faces 0 and 1 in the lab frame of one phase."""
+    """Boundary data of faces 0 and 1 in the lab frame of one phase.
+
+    ``t_inf`` holds the surroundings at one instant. Faces whose plate droops after loading
+    keep their :class:`FaceBC` in ``drooping``; :meth:`at` evaluates them at a cook time.
+    """
 
     h: tuple[float, float]
     t_inf: tuple[float, float]
     eps_sigma: tuple[float, float]
+    drooping: tuple[FaceBC, FaceBC] | None = None
 
     @classmethod
     def of(cls, face0: FaceBC, face1: FaceBC) -> Faces:
-        """Pack two :class:`FaceBC`."""
+        """Pack two :class:`FaceBC` (surroundings at their recovered ``t_inf_c``)."""
+        droop = face0.droop_k != 0.0 or face1.droop_k != 0.0
         return cls(
             h=(float(face0.h), float(face1.h)),
             t_inf=(float(face0.t_inf_c), float(face1.t_inf_c)),
             eps_sigma=(STEFAN_BOLTZMANN * face0.emissivity, STEFAN_BOLTZMANN * face1.emissivity),
+            drooping=(face0, face1) if droop else None,
         )
+
+    def at(self, t_s: float) -> Faces:
+        """The faces at ``t_s`` seconds from loading (``self`` when nothing droops)."""
+        if self.drooping is None:
+            return self
+        f0, f1 = self.drooping
+        return Faces(self.h, (f0.t_inf_at(t_s), f1.t_inf_at(t_s)), self.eps_sigma)
 
     def flux(self, side: int, ts: float) -> tuple[float, float]:
         """Heat flux into the food (W/m^2) through face ``side`` at T_s (degC), and d/dT_s."""
@@ -330,15 +347,18 @@ def trbdf2_step(
 ) -> StepResult:
     """One TR-BDF2 step from ``t0``; ``dy`` is the previous increment (predictor).
 
+    ``t0`` is the cook time (s from loading): each implicit stage sees the surroundings of
+    drooping faces at its own time, ``t0 + gamma dt`` and ``t0 + dt``.
     Returns the new unknowns, dE/dt of the cells at the new time (from the BDF2 relation,
     no extra evaluation), and the new temperatures [T_s0, T_cells.., T_s1].
     """
     wdt = STAGE_WEIGHT * dt
     rhs = y[1:-1] + wdt * fn
-    y_st, _ = stage(props, mesh, faces, wdt, rhs, src(mesh.x, t0 + GAMMA * dt), y + GAMMA * dy)
+    t_st, t_new = t0 + GAMMA * dt, t0 + dt
+    y_st, _ = stage(props, mesh, faces.at(t_st), wdt, rhs, src(mesh.x, t_st), y + GAMMA * dy)
     rhs = B2_STAR * y_st[1:-1] - B2_OLD * y[1:-1]
     guess = y_st + (1.0 - GAMMA) / GAMMA * (y_st - y)
-    y_new, temp = stage(props, mesh, faces, wdt, rhs, src(mesh.x, t0 + dt), guess)
+    y_new, temp = stage(props, mesh, faces.at(t_new), wdt, rhs, src(mesh.x, t_new), guess)
     return y_new, (y_new[1:-1] - rhs) / wdt, temp
 
 

@@ -6,6 +6,7 @@ the upper platen. A flip mirrors the slab, so the face that was up touches the p
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 #: Stefan-Boltzmann constant, W/(m^2 K^4) (CODATA 2018, exact in SI since 2019).
@@ -17,6 +18,8 @@ class FaceBC:
     """Heat exchange of one face with its surroundings.
 
     Heat flux into the food is ``h*(t_inf - t_s) + emissivity*sigma*(T_inf^4 - T_s^4)``.
+    A heated surface may droop after a cold load and recover exponentially: at time ``t``
+    from loading the surface is at ``t_inf_c - droop_k * exp(-t / droop_tau_s)``.
 
     Attributes
     ----------
@@ -27,11 +30,33 @@ class FaceBC:
     emissivity : float
         Surface emissivity for radiation exchange with surroundings at ``t_inf_c``, -.
         Zero for plate contact (contact coefficient already covers it).
+    droop_k : float
+        Drop of the surface temperature at loading, K (0: none).
+    droop_tau_s : float
+        Time constant of the recovery from the drop, s (used only when ``droop_k > 0``).
     """
 
     h: float
     t_inf_c: float
     emissivity: float = 0.0
+    droop_k: float = 0.0
+    droop_tau_s: float = 1.0
+
+    def __post_init__(self) -> None:
+        if not self.droop_k >= 0.0:
+            raise ValueError(f"droop_k = {self.droop_k!r}: allowed >= 0 K")
+        if not self.droop_tau_s > 0.0:
+            raise ValueError(f"droop_tau_s = {self.droop_tau_s!r}: allowed > 0 s")
+
+    def t_inf_at(self, t_s: float) -> float:
+        """Surface temperature seen by the face at ``t_s`` seconds from loading, degC."""
+        if self.droop_k == 0.0:
+            return self.t_inf_c
+        return self.t_inf_c - self.droop_k * math.exp(-t_s / self.droop_tau_s)
+
+    def steady(self) -> FaceBC:
+        """The same face with the droop held at its worst for the whole cook (a lower bound)."""
+        return FaceBC(self.h, self.t_inf_c - self.droop_k, self.emissivity)
 
 
 @dataclass(frozen=True)

@@ -9,7 +9,9 @@ Method (details in :mod:`obvert.thermal._fv`): cell-centred finite volumes on a 
 with the enthalpy of each cell as state, Kirchhoff-mean face conductivities, surface
 temperatures solved from the flux balance of each face, TR-BDF2 time stepping (second order,
 L-stable) with Newton iterations on a tridiagonal system, and equal steps within each phase so
-that flips and phase changes fall exactly on step boundaries. The log reduction of a
+that flips and phase changes fall exactly on step boundaries. A plate that droops after
+loading (:attr:`FaceBC.droop_k`, time from loading, not from the phase start) is evaluated at
+the time of each implicit stage. The log reduction of a
 :class:`~obvert.food.lethality.LethalityModel` is integrated in every cell by the trapezoid
 rule on the step ends. Second order in space and time (verified in ``tests/physics``).
 
@@ -160,6 +162,13 @@ def _check_face(face: FaceBC, field: str, lo: float, hi: float) -> None:
     )
     e = face.emissivity
     _require(0.0 <= e <= 1.0, f"{field}.emissivity", e, "in [0, 1]")
+    _require(
+        face.t_inf_c - face.droop_k >= lo,
+        f"{field}.droop_k",
+        face.droop_k,
+        f"at most t_inf_c - {lo} = {face.t_inf_c - lo:g} K (the drooped surface must stay "
+        "within the property table range)",
+    )
 
 
 def _check_inputs(
@@ -303,7 +312,9 @@ class _March:
                 self.lr = self.lr[::-1].copy()
                 self.mirrored = not self.mirrored
             faces = _fv.Faces.of(phase.face0, phase.face1)
-            fn, y = _fv.rate(self.props, self.mesh, faces, y, self.src(self.mesh.x, t_start))
+            fn, y = _fv.rate(
+                self.props, self.mesh, faces.at(t_start), y, self.src(self.mesh.x, t_start)
+            )
             if i == 0:
                 temp = np.concatenate(([y[0]], self.props.of_e(y[1:-1])[0], [y[-1]]))
                 self._put(0.0, temp, 0)

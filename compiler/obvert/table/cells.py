@@ -1,0 +1,229 @@
+"""Certification inside every cell of the table, for the lookup rule the firmware runs.
+
+A cell is the rectangle between four neighbouring nodes. For each lookup rule:
+
+* ``corner``: a query in the cell runs the node at its thickest, coldest corner. A thinner
+  or warmer slab never cooks slower under the same schedule (comparison principle; checked
+  on the reference model in tests/physics/test_monotonicity.py), so that node's own
+  certificate, taken at the worst tolerance corner, covers the whole cell; the cell's
+  smallest margin is the node's.
+* ``bilinear``: a query runs the event times interpolated between the four corners (exact
+  integer rule in :mod:`obvert.table.lookup`). There is no such order for an interpolated
+  schedule, so the cell is sampled: edge midpoints, centre and seeded random points, each
+  with the schedule the float *and* the fixed-point lookup return, each simulated on the
+  reference model in every tolerance scenario (measured thickness plus the thickness error,
+  measured start minus the temperature error, slow plate). A failure is repaired by a
+  done-time pad for the cell (the smallest, in ticks, that makes every sample pass, then
+  every sample is simulated again with it). When the pad would make interpolation no
+  faster than the corner rule at the cell centre, or the corners run different event
+  sequences, the cell falls back to the corner rule.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Callable, Mapping, Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+
+from obvert.plan.schedule import EVENT_CODES, Event, Schedule
+from obvert.table.certify import Case, CertificationError, certify, judge_all
+from obvert.table.lookup import lookup_f32, lookup_fixed
+
+#: Random points per cell, on top of the four edge midpoints and the centre.
+RANDOM_POINTS = 4
+_KINDS = {v: k for k, v in EVENT_CODES.items()}
+
+#: ``(measured thickness m, measured start degC) -> reference cases of every scenario``.
+CasesAt = Callable[[float, float], Sequence[Case]]
+
+
+class CellError(RuntimeError):
+    """A cell could not be certified for its lookup rule."""
+
+
+@dataclass(frozen=True)
+class CellResult:
+    """Certification outcome of one cell under one lookup rule.
+
+    Attributes
+    ----------
+    ci, cj : int
+        Cell indices (between thickness nodes ci, ci+1 and start nodes cj, cj+1).
+    rule : str
+        What the firmware does in the cell: ``bilinear`` or ``corner``.
+    done_pad_ticks : int
+        Ticks added to the done time the rule returns.
+    min_margin_log : float
+        Smallest reference log reduction minus the target over the samples, log10.
+    at : tuple of float
+        Measured (thickness m, start degC) where the smallest margin occurred.
+    samples : int
+        Reference simulations behind the verdict (0: covered by monotonicity).
+    """
+
+    ci: int
+    cj: int
+    rule: str
+    done_pad_ticks: int
+    min_margin_log: float
+    at: tuple[float, float]
+    samples: int
+
+
+def schedule_of(events: Sequence[tuple[int, int]], tick_s: float) -> Schedule:
+    """Schedule from lookup output ``(kind code, at_ticks)``."""
+    return Schedule(tuple(Event(_KINDS[k], t * tick_s) for k, t in events))
+
+
+def sample_points(
+    x: tuple[float, float], t: tuple[float, float], seed: int
+) -> list[tuple[float, float]]:
+    """Edge midpoints, centre and seeded random points of the cell [x0, x1] x [t0, t1]."""
+    xm, tm = 0.5 * (x[0] + x[1]), 0.5 * (t[0] + t[1])
+    pts = [(xm, t[0]), (xm, t[1]), (x[0], tm), (x[1], tm), (xm, tm)]
+    rng = np.random.default_rng(seed)
+    for _ in range(RANDOM_POINTS):
+        pts.append((float(rng.uniform(*x)), float(rng.uniform(*t))))
+    return pts
+
+
+def lookup_schedules(
+    manifest: Mapping[str, Any], rule: str, x_m: float, t_c: float
+) -> list[Schedule]:
+    """Distinct schedules the float and the fixed-point firmware return at a point."""
+    tick = float(manifest["tick_s"])
+    outs = []
+    f = lookup_f32(manifest, np.float32(x_m * 1000.0), np.float32(t_c), rule=rule)
+    q = lookup_fixed(manifest, int(math.floor(x_m * 1e6)), int(math.ceil(t_c * 100.0)), rule=rule)
+    for res in (f, q):
+        if res.status != 0:
+            raise CellError(f"lookup at ({x_m * 1e3:g} mm, {t_c:g} degC): status {res.status}")
+        if res.events not in [o for o in outs]:
+            outs.append(res.events)
+    return [schedule_of(e, tick) for e in outs]
+
+
+def corner_cells(manifest: Mapping[str, Any]) -> list[CellResult]:
+    """Corner-rule cells: each covered by its thickest, coldest node (monotonicity)."""
+    nodes = manifest["nodes"]
+    n_t = len(manifest["axes"]["start_temp_c"])
+    out = []
+    for ci, cj in _cells(manifest):
+        node = nodes[(ci + 1) * n_t + cj]
+        at = (float(node["thickness_m"]), float(node["start_temp_c"]))
+        out.append(CellResult(ci, cj, "corner", 0, float(node["margin_log"]), at, 0))
+    return out
+
+
+def _cells(manifest: Mapping[str, Any]) -> list[tuple[int, int]]:
+    n_x = len(manifest["axes"]["thickness_m"])
+    n_t = len(manifest["axes"]["start_temp_c"])
+    return [(ci, cj) for ci in range(n_x - 1) for cj in range(n_t - 1)]
+
+
+def _same_kinds(manifest: Mapping[str, Any], ci: int, cj: int) -> bool:
+    n_t = len(manifest["axes"]["start_temp_c"])
+    nodes = manifest["nodes"]
+    seqs = {
+        tuple(e["kind"] for e in nodes[(ci + a) * n_t + cj + b]["events"])
+        for a in (0, 1)
+        for b in (0, 1)
+    }
+    return len(seqs) == 1
+
+
+def with_cells(manifest: Mapping[str, Any], rule: str, cells: list[CellResult]) -> dict:
+    """A copy of ``manifest`` whose ``cells[rule]`` lists ``cells``."""
+    out = dict(manifest)
+    all_cells = dict(out.get("cells", {}))
+    all_cells[rule] = [
+        {
+            "ci": c.ci,
+            "cj": c.cj,
+            "rule": c.rule,
+            "done_pad_ticks": c.done_pad_ticks,
+            "min_margin_log": round(c.min_margin_log, 6),
+            "at": {"thickness_m": round(c.at[0], 6), "start_temp_c": round(c.at[1], 6)},
+            "samples": c.samples,
+        }
+        for c in cells
+    ]
+    out["cells"] = all_cells
+    return out
+
+
+def bilinear_cells(
+    manifest: Mapping[str, Any],
+    cases_at: CasesAt,
+    say: Callable[[str], None] | None = None,
+) -> list[CellResult]:
+    """Certify every cell for the bilinear rule (sampling, pad repair, corner fallback)."""
+    corner = {(c.ci, c.cj): c for c in corner_cells(manifest)}
+    trial = [
+        CellResult(
+            c.ci,
+            c.cj,
+            "bilinear" if _same_kinds(manifest, c.ci, c.cj) else "corner",
+            0,
+            c.min_margin_log,
+            c.at,
+            0,
+        )
+        for c in corner.values()
+    ]
+    base = with_cells(manifest, "bilinear", trial)
+    out = []
+    for k, cell in enumerate(trial):
+        if say is not None:
+            say(f"cell {k + 1}/{len(trial)} (bilinear): ci={cell.ci}, cj={cell.cj}")
+        if cell.rule == "corner":
+            out.append(corner[(cell.ci, cell.cj)])
+            continue
+        out.append(_bilinear_cell(base, cell, cases_at, corner[(cell.ci, cell.cj)]))
+    return out
+
+
+def _bilinear_cell(
+    manifest: Mapping[str, Any], cell: CellResult, cases_at: CasesAt, fallback: CellResult
+) -> CellResult:
+    ax, at = manifest["axes"]["thickness_m"], manifest["axes"]["start_temp_c"]
+    x = (float(ax[cell.ci]), float(ax[cell.ci + 1]))
+    t = (float(at[cell.cj]), float(at[cell.cj + 1]))
+    tick = float(manifest["tick_s"])
+    seed = 7919 * cell.ci + cell.cj
+    work = [
+        (p, s, cases_at(*p))
+        for p in sample_points(x, t, seed)
+        for s in lookup_schedules(manifest, "bilinear", *p)
+    ]
+    pad = 0
+    for p, s, cases in work:
+        try:
+            cert = certify(cases, s, tick)
+        except CertificationError as exc:
+            raise CellError(f"cell ({cell.ci}, {cell.cj}) at {p}: {exc}") from None
+        pad = max(pad, round(cert.correction_s / tick))
+    centre = (0.5 * (x[0] + x[1]), 0.5 * (t[0] + t[1]))
+    if pad > 0 and _no_faster(manifest, centre, pad):
+        return fallback
+    worst, where = math.inf, centre
+    for p, s, cases in work:
+        padded = s.with_done(s.done_s + pad * tick)
+        v = judge_all(cases, padded)
+        if not v.passed:
+            raise CellError(f"cell ({cell.ci}, {cell.cj}) at {p}: fails even with pad {pad}")
+        margin = v.min_log_reduction - cases[0].requirement.log_reduction
+        if margin < worst:
+            worst, where = margin, p
+    return CellResult(cell.ci, cell.cj, "bilinear", pad, worst, where, len(work))
+
+
+def _no_faster(manifest: Mapping[str, Any], p: tuple[float, float], pad: int) -> bool:
+    """Padded interpolation at ``p`` is no shorter than the corner rule there."""
+    tick = float(manifest["tick_s"])
+    bil = max(s.done_s for s in lookup_schedules(manifest, "bilinear", *p)) + pad * tick
+    cor = min(s.done_s for s in lookup_schedules(manifest, "corner", *p))
+    return bil >= cor
