@@ -20,3 +20,9 @@ _SPEC.loader.exec_module(helpers)
 def built(tmp_path_factory: pytest.TempPathFactory):
     """The small test spec built once through the CLI: output folder, stdout, manifest."""
     return helpers.build_once(tmp_path_factory.mktemp("build"))
+
+
+@pytest.fixture(scope="session")
+def built_tolerances(tmp_path_factory: pytest.TempPathFactory):
+    """The tolerance spec built once (bilinear float header and JSON): out, stdout, manifest."""
+    return helpers.build_tolerances(tmp_path_factory.mktemp("build_tol"))

@@ -17,7 +17,9 @@ import click
 from obvert import CAUTION, __version__
 from obvert.emit import EmitError, ProfileError, emit, load_target
 from obvert.spec import SpecError, load_spec, loads_spec
-from obvert.table.build import BuildError, build
+from obvert.summary import summary
+from obvert.table.build import BuildError
+from obvert.table.compile import CellCertificationError, compile_table
 from obvert.table.manifest import manifest
 
 DEMOS = {"griddle": "griddle_patty.toml", "clamshell": "clamshell_patty.toml"}
@@ -38,45 +40,6 @@ def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
             staged.append((path, out_dir / name))
         for src, dst in staged:
             os.replace(src, dst)
-
-
-def _opt(v: float | None) -> str:
-    return f"{'-':>8}" if v is None else f"{v:8.1f}"
-
-
-def _summary(m: dict) -> str:
-    cols = (
-        "thick mm",
-        "start C",
-        "flips",
-        "cook s",
-        "plan s",
-        "fix s",
-        "margin log",
-        "ff lim s",
-        "2side s",
-    )
-    widths = (8, 8, 5, 8, 8, 6, 10, 8, 8)
-    head = " ".join(f"{c:>{w}}" for c, w in zip(cols, widths, strict=True)) + "  events"
-    lines = [head, "-" * len(head)]
-    for n in m["nodes"]:
-        ev = ", ".join(f"{e['kind']}@{e['at_s']:.1f}" for e in n["events"])
-        lines.append(
-            f"{n['thickness_m'] * 1e3:8.2f} {n['start_temp_c']:8.1f} {n['flips']:5d} "
-            f"{n['cook_time_s']:8.1f} {n['planned_cook_time_s']:8.1f} {n['correction_s']:6.1f} "
-            f"{n['margin_log']:10.3f} {_opt(n['bounds_s'].get('fast_flip_limit'))} "
-            f"{_opt(n['bounds_s'].get('two_sided_contact'))}  {ev}"
-        )
-    s = m["summary"]
-    lines.append(
-        "plan s: reduced-model optimum before ticks; fix s: extension needed on the reference "
-        "model; ff lim s / 2side s: fast-flip and two-sided-contact limits (reduced model)"
-    )
-    lines.append(
-        f"smallest margin {s['smallest_margin_log']:.3f} log; "
-        f"{s['nodes_corrected']} node(s) extended by certification"
-    )
-    return "\n".join(lines)
 
 
 @click.group()
@@ -145,9 +108,10 @@ def build_cmd(
             err=True,
         )
     progress = None if quiet else (lambda msg: click.echo(msg, err=True))
+    rules = sorted({"corner", *(p.lookup for p in profiles)})
     try:
-        table = build(spec, progress, jobs=jobs)
-    except BuildError as exc:
+        table = compile_table(spec, rules, progress, jobs=jobs)
+    except (BuildError, CellCertificationError) as exc:
         click.echo(f"error: {exc}", err=True)
         click.echo("nothing was written", err=True)
         sys.exit(1)
@@ -162,7 +126,7 @@ def build_cmd(
     except EmitError as exc:
         click.echo(f"error: {exc}", err=True)
         sys.exit(2)
-    click.echo(_summary(m))
+    click.echo(summary(m))
     write_atomically(out_dir, files)
     for name in sorted(files):
         click.echo(f"wrote {out_dir / name}")

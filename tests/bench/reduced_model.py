@@ -1,7 +1,7 @@
 """Benchmark: the reduced spectral model and its planner against the finite-volume reference.
 
-Usage: ``python tests/bench/reduced_model.py [--quick]`` (full: about 20 min on one core;
-quick: about 2 min). Method and measured figures: docs/reduced-model.md.
+Usage: ``nice -n 10 python tests/bench/reduced_model.py [--quick] [-v]`` (full: about an hour
+on two shared cores; quick: a few minutes). Method and measured figures: docs/reduced-model.md.
 
 The demo food and appliance (compiler/obvert/demo/griddle_patty.toml) with the
 salmonella_beef_7log preset and its 7-log target (no minimum-temperature rule), one flip.
@@ -9,19 +9,27 @@ The trusted reference is ``obvert.thermal.reference.simulate`` with 400 cells an
 steps (second order in space and time, verified in tests/physics; its own discretisation
 error is printed for every case against 200 cells / 0.05 s).
 
-For each thickness and start, and each model variant and node count:
+A configuration is written ``nodes/points/stencil eE``: Chebyshev nodes (the model's states,
+one enthalpy each), lethality points (quadrature outputs where the log reduction is
+integrated, not states; 0: at the nodes), nodes each point interpolates from (0: the
+global polynomial), Radau elements per phase; ``cA``: points clustered mid-slab
+(lab ``lethality_layout`` with alpha A); ``mapped``: the lab's mapped grid. The default is
+what the build uses (the spec's [planning] defaults, SpectralSettings' stencil).
 
 (a) cold-spot error: max over time of |min over slab T_reduced - min over slab T_ref| on a
     fixed schedule (one flip at 45 % of the cook, done at the reference's time-to-target),
     excluding the 2 s after loading, lift-off and landing. ``nodes``: minimum over the
-    Chebyshev nodes; ``slab``: minimum of the interpolated field on 201 points; ``hot``: the
-    slab error while the reference cold spot is at or above 40 degC (where lethality counts).
-(b) error of the smallest log reduction at removal on the same schedule (``nodes``: the model's
-    LR states; ``slab``: LR integrated on the 201 points from the interpolated temperature).
+    nodes; ``slab``: minimum of the interpolated field on 201 points; ``hot``: the slab
+    error while the reference cold spot is at or above 40 degC (where lethality counts).
+(b) error of the smallest log reduction at removal on the same schedule, per point rule:
+    LR integrated (trapezoid, on the reference's rows) from the model's temperatures at the
+    rule's points; ``own``: the model's own LR states at the default rule (a check of that
+    quadrature); ``slab``: the global polynomial on 201 points.
 (c) cook-time error of the plan: planned done time vs the reference's exact minimum done time
     for the planned flip time (first time the reference's min LR reaches the target,
-    interpolated between its 0.02 s steps), with the wall and CPU time of the solve
-    (NLP construction included) and its ratio to the stock 12-node / 8-element planner.
+    interpolated between its 0.02 s steps), with the wall and CPU time of the one-flip
+    solve (NLP construction included; seeded, as the build does, by the zero-flip optimum
+    with its dwell split) and their ratios to the default configuration in the same run.
 """
 
 from __future__ import annotations
@@ -30,8 +38,9 @@ import argparse
 import sys
 import time
 from collections.abc import Callable
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from importlib.resources import files
+from typing import Any
 
 import numpy as np
 
@@ -53,42 +62,103 @@ DEFAULT_REF = ReferenceSettings()  # 200 cells, 0.05 s: what certification uses
 FINE = ReferenceSettings(n_cells=800, dt_max_s=0.01)
 TARGET_COOK = 1e-3  # relative cook-time error (issue)
 TARGET_COLD_K = 0.3  # cold-spot error, K (issue)
+MAX_STATES = 24  # enthalpy nodes allowed (issue)
 FLIP_FRACTION, SETTLE_S, HOT_C, STRIDE = 0.45, 2.0, 40.0, 2
 X_FINE = 201
 
 
 @dataclass(frozen=True)
-class Config:
-    """What one run measures (thicknesses mm, starts degC, node and element counts)."""
+class Variant:
+    """One reduced-model configuration (see the module docstring for the notation)."""
 
-    thicknesses_mm: tuple[float, ...]
-    starts_c: tuple[float, ...]
+    nodes: int = 16
+    points: int = 21
+    stencil: int = 4
+    elements: int = 8
+    alpha: float = 0.0  # lethality layout, 0: equally spaced
+    mapped: bool = False
+
+    @property
+    def rule(self) -> str:
+        """Point rule only: ``points/stencil`` (``nodes`` for the node rule)."""
+        if not self.points:
+            return "nodes"
+        return f"{self.points}/{self.stencil}" + (f" c{self.alpha:g}" if self.alpha else "")
+
+    @property
+    def label(self) -> str:
+        """Full configuration."""
+        rule = f"{self.points}/{self.stencil}" if self.points else "0"
+        tail = (f" c{self.alpha:g}" if self.alpha else "") + (" mapped" if self.mapped else "")
+        return f"{self.nodes}/{rule} e{self.elements}{tail}"
+
+
+def _v(nodes: int, points: int, stencil: int = 4, **kw: Any) -> Variant:
+    return Variant(nodes, points, stencil, **kw)
+
+
+RULES = (_v(16, 0), _v(16, 11), _v(16, 21), _v(16, 31), _v(16, 41), _v(16, 21, 0))
+RULES += (_v(16, 41, 0), _v(16, 21, alpha=0.9), _v(16, 31, alpha=0.9))
+PLANS = (_v(16, 21), _v(16, 0), _v(16, 31), _v(16, 41), _v(12, 21), _v(24, 21))
+PLANS += (_v(16, 21, 0), _v(16, 21, alpha=0.9), _v(24, 41))
+PLANS_EXTRA = (_v(8, 21), _v(20, 21), _v(16, 11), _v(16, 41, 0), _v(12, 41))
+PLANS_EXTRA += (_v(16, 31, alpha=0.9), _v(16, 21, alpha=0.95), _v(16, 21, elements=16))
+PLANS_EXTRA += (_v(16, 21, mapped=True),)
+
+
+@dataclass(frozen=True)
+class Config:
+    """What one run measures (cases as (mm, degC); plans_extra only on extra_cases)."""
+
+    cases: tuple[tuple[float, float], ...]
     nodes: tuple[int, ...]
-    elements: tuple[int, ...]  # swept at 12 nodes
+    rules: tuple[Variant, ...]
+    plans: tuple[Variant, ...]
+    plans_extra: tuple[Variant, ...]
+    extra_cases: tuple[tuple[float, float], ...]
     lab: bool  # mapped grid, filter, smoothed table, 32/40 nodes
     fine_check: tuple[float, float] | None  # (mm, degC) also checked at 800 cells / 0.01 s
 
 
-FULL = Config((6, 10, 15, 25), (4, -18), (8, 12, 16, 20, 24), (6, 8, 12, 16), True, (10, -18))
-QUICK = Config((6, 10), (4, -18), (12, 24), (8,), False, None)
 CASES_QUICK = ((6.0, 4.0), (10.0, -18.0))
+FULL = Config(
+    tuple((mm, t0) for mm in (6.0, 10.0, 15.0, 25.0) for t0 in (4.0, -18.0)),
+    (8, 12, 16, 20, 24),
+    RULES,
+    PLANS,
+    PLANS_EXTRA,
+    CASES_QUICK,
+    True,
+    (10.0, -18.0),
+)
+QUICK = Config(
+    CASES_QUICK,
+    (16, 24),
+    (_v(16, 0), _v(16, 21), _v(16, 41)),
+    (_v(16, 21), _v(16, 41)),
+    (),
+    (),
+    False,
+    None,
+)
 
 
 @dataclass(frozen=True)
 class Setup:
-    """Demo food, appliance and target."""
+    """Demo food, appliance, target and the build's default configuration."""
 
     table: PropertyTable
     lethality: LethalityModel
     env: Surroundings
     requirement: Requirement
     min_gap_s: float
+    default: Variant
 
 
 def demo_setup() -> Setup:
     """The demo food and appliance, salmonella_beef_7log with its 7-log target."""
     spec = load_spec(str(files("obvert.demo") / "griddle_patty.toml"))
-    a = spec.appliance
+    a, pl = spec.appliance, spec.planning
     env = Surroundings(
         plate=FaceBC(a.contact_coefficient, a.plate_temp_c),
         air=FaceBC(a.air_coefficient, a.air_temp_c, a.emissivity),
@@ -97,7 +167,24 @@ def demo_setup() -> Setup:
     )
     org = preset("salmonella_beef_7log")
     req = Requirement(org.target_log_reduction)
-    return Setup(food_table(spec.food), org.model(), env, req, a.min_event_gap_s)
+    default = Variant(
+        pl.spectral_nodes,
+        pl.lethality_points,
+        SpectralSettings().lethality_stencil,
+        pl.elements_per_phase,
+    )
+    return Setup(food_table(spec.food), org.model(), env, req, a.min_event_gap_s, default)
+
+
+def make_model(su: Setup, mm: float, v: Variant) -> SpectralModel:
+    """Reduced model of configuration ``v`` for a ``mm`` thick slab."""
+    st = SpectralSettings(v.nodes, lethality_points=v.points, lethality_stencil=v.stencil)
+    args = (su.table, mm * 1e-3, su.lethality, st)
+    if v.mapped:
+        return lab.MappedSpectralModel(*args)
+    if v.alpha:
+        return lab.ClusteredSpectralModel(*args, alpha=v.alpha)
+    return SpectralModel(*args)
 
 
 def one_flip(flip_s: float, done_s: float) -> Schedule:
@@ -151,13 +238,13 @@ def fixed_schedule(su: Setup, mm: float, t0: float) -> tuple[Schedule, Reference
 
 @dataclass(frozen=True)
 class History:
-    """Reduced-model outputs at the reference's (strided) rows."""
+    """Reduced-model outputs at the reference's (strided) rows, t = 0 first."""
 
     t_s: np.ndarray
-    cold_nodes: np.ndarray
+    temps: np.ndarray  # node temperatures, degC, lab frame, (rows, n)
+    mirrored: np.ndarray
     cold_slab: np.ndarray
-    lr_nodes: float
-    lr_slab: float
+    lr_own: float  # smallest of the model's own LR states at removal
 
 
 def reduced_history(
@@ -166,144 +253,134 @@ def reduced_history(
     """Simulate ``sch`` on the reduced model (CVODES) at the reference's rows."""
     n = model.n
     interp = lab.interpolation_matrix(model, np.linspace(0.0, model.thickness_m, X_FINE))
-    x, start, rows_t, cold_n, fine = model.initial_state(t0), 0.0, [], [], []
-    mirrored = False
+    x, start, rows_t, temps, mir = model.initial_state(t0), 0.0, [[0.0]], [], [[False]]
+    temps.append(np.full((1, n), t0))
     for k, ph in enumerate(phases_for(sch, su.env)):
         if ph.flip_before:
-            x, mirrored = np.array(model.flip(x)).ravel(), not mirrored
+            x = np.array(model.flip(x)).ravel()
         t_rows = ref.t_s[ref.phase_index == k]
         t_rows = t_rows[t_rows > start][::-1][::STRIDE][::-1]  # keep the phase end
         traj = np.array(
             model.trajectory(ph.face0, ph.face1, (t_rows - start) / ph.duration_s)(x, ph.duration_s)
         )
-        temps = np.array(model.temp_of(traj[:n].T.reshape(1, -1))).reshape(-1, n)
-        t_fine = temps @ interp.T
-        fine.append(t_fine[:, ::-1] if mirrored else t_fine)  # food frame
+        temps.append(np.array(model.temp_of(traj[:n].T.reshape(1, -1))).reshape(-1, n))
         rows_t.append(t_rows)
-        cold_n.append(temps.min(axis=1))
+        mir.append(np.full(t_rows.size, bool(ref.mirrored[ref.phase_index == k][-1])))
         x, start = traj[:, -1], start + ph.duration_s
-    t_all = np.concatenate([[0.0], *rows_t])
-    t_fine = np.vstack([np.full((1, X_FINE), t0), *fine])
-    rate = su.lethality.rate(t_fine)
-    lr = np.sum(0.5 * (rate[1:] + rate[:-1]) * np.diff(t_all)[:, None], axis=0)
+    t_nodes = np.vstack(temps)
     return History(
-        t_all[1:],
-        np.concatenate(cold_n),
-        t_fine[1:].min(axis=1),
+        np.concatenate(rows_t),
+        t_nodes,
+        np.concatenate(mir),
+        (t_nodes @ interp.T).min(axis=1),
         float(x[n:].min()),
-        float(lr.min()),
     )
 
 
-def field_errors(h: History, ref: ReferenceResult, sch: Schedule, su: Setup) -> dict:
+def rule_lr(h: History, model: SpectralModel, v: Variant, lm: LethalityModel) -> float:
+    """Smallest LR at removal at the points of rule ``v`` (trapezoid on the rows), log10."""
+    if v.points:
+        x = lab.lethality_layout(model.thickness_m, v.points, v.alpha)
+        tp = h.temps @ lab.point_matrix(model, x, v.stencil).T
+    else:
+        tp = h.temps.copy()
+    tp[h.mirrored] = tp[h.mirrored, ::-1]  # food frame (layouts are symmetric)
+    rate = lm.rate(tp)
+    return float(np.sum(0.5 * (rate[1:] + rate[:-1]) * np.diff(h.t_s)[:, None], axis=0).min())
+
+
+def field_errors(h: History, model: SpectralModel, ref: ReferenceResult, su: Setup, cfg) -> dict:
     """(a) and (b) of one reduced run against the trusted reference."""
-    cold_ref = np.interp(h.t_s, ref.t_s, ref.temp_c.min(axis=1))
-    keep = np.ones(h.t_s.size, dtype=bool)
-    events = [0.0] + [e.at_s for e in sch.events[:-1]] + [sch.events[0].at_s + su.env.flip_air_s]
-    for e in events:
-        keep &= ~((h.t_s > e - 1e-9) & (h.t_s < e + SETTLE_S))
+    t = h.t_s[1:]
+    cold_ref = np.interp(t, ref.t_s, ref.temp_c.min(axis=1))
+    keep = np.ones(t.size, dtype=bool)
+    flip = ref.t_s[np.argmax(ref.phase_index == 1)]
+    for e in (0.0, flip, flip + su.env.flip_air_s):
+        keep &= ~((t > e - 1e-9) & (t < e + SETTLE_S))
     hot = keep & (cold_ref >= HOT_C)
     lr_ref = float(ref.log_reduction[-1].min())
+    slab = np.abs(h.cold_slab[1:] - cold_ref)
+    lr = {v.rule: rule_lr(h, model, v, su.lethality) - lr_ref for v in cfg.rules}
+    lr["slab"] = rule_lr(h, model, _v(model.n, X_FINE, 0), su.lethality) - lr_ref
     return {
-        "cold_nodes": float(np.abs(h.cold_nodes - cold_ref)[keep].max()),
-        "cold_slab": float(np.abs(h.cold_slab - cold_ref)[keep].max()),
-        "cold_hot": float(np.abs(h.cold_slab - cold_ref)[hot].max()) if hot.any() else np.nan,
-        "lr_nodes": h.lr_nodes - lr_ref,
-        "lr_slab": h.lr_slab - lr_ref,
+        "cold_nodes": float(np.abs(h.temps[1:].min(axis=1) - cold_ref)[keep].max()),
+        "cold_slab": float(slab[keep].max()),
+        "cold_hot": float(slab[hot].max()) if hot.any() else np.nan,
+        "lr_own": h.lr_own - lr_ref,
+        "lr": lr,
     }
 
 
-def plan(planner: Planner, t0: float) -> tuple[float, float, float, float, str]:
-    """Solve one flip: (flip s, done s, wall s, CPU s, failure note); NaN when it fails."""
-    w, c = time.perf_counter(), time.process_time()
-    flip = done = float("nan")
-    note = ""
+def field_models(su: Setup, mm: float, cfg: Config) -> list[tuple[str, SpectralModel]]:
+    """Models for (a)/(b): stock at every node count, lab variants if asked."""
+    d = su.default
+    out = [(f"chebyshev {n}", make_model(su, mm, replace(d, nodes=n))) for n in cfg.nodes]
+    if cfg.lab:
+        s24 = SpectralSettings(24, lethality_points=d.points, lethality_stencil=d.stencil)
+        args = (mm * 1e-3, su.lethality, s24)
+        out += [(f"chebyshev {n}", make_model(su, mm, replace(d, nodes=n))) for n in (32, 40)]
+        out += [
+            (f"mapped {n}", make_model(su, mm, replace(d, nodes=n, mapped=True))) for n in (16, 24)
+        ]
+        out += [
+            ("filter 24", lab.FilteredSpectralModel(su.table, *args)),
+            ("smooth0.5K 24", SpectralModel(lab.smoothed_table(su.table, 0.5), *args)),
+            ("smooth2K 24", SpectralModel(lab.smoothed_table(su.table, 2.0), *args)),
+        ]
+    return out
+
+
+def plan(su: Setup, mm: float, t0: float, v: Variant) -> tuple[SpectralModel, dict]:
+    """Zero-flip seed solve, then the timed one-flip solve; NaN times when it fails."""
+    model = make_model(su, mm, v)
+    planner = Planner(model, su.env, su.requirement, su.min_gap_s, Grid(v.elements))
+    row = {"v": v, "flip": np.nan, "done": np.nan, "note": ""}
     try:
-        res = planner.solve(("flip",), t0)
-        flip, done = res.schedule.events[0].at_s, res.cook_time_s
+        d0 = planner.solve((), t0).dwell_s[0]
+        seeds: tuple[np.ndarray, ...] = (np.array([0.5 * d0, 0.5 * d0 - su.env.flip_air_s]),)
+    except PlanError:
+        seeds = ()
+    w, c = time.perf_counter(), time.process_time()
+    try:
+        res = planner.solve(("flip",), t0, seeds)
+        row.update(flip=res.schedule.events[0].at_s, done=res.cook_time_s)
     except PlanError as exc:
-        note = str(exc).split(": ", 1)[-1]
-    return flip, done, time.perf_counter() - w, time.process_time() - c, note
+        row["note"] = str(exc).split(": ", 1)[-1][:60]
+    row.update(wall=time.perf_counter() - w, cpu=time.process_time() - c)
+    return model, row
 
 
-def models(su: Setup, mm: float, cfg: Config) -> list[tuple[str, int, SpectralModel]]:
-    """Model variants for (a)/(b): stock at every node count, lab variants if asked."""
-    thick, lm, top = mm * 1e-3, su.lethality, max(cfg.nodes)
-    out = [
-        ("chebyshev", n, SpectralModel(su.table, thick, lm, SpectralSettings(n))) for n in cfg.nodes
-    ]
-    if cfg.lab:
-        s = SpectralSettings(top)
-        out += [
-            ("chebyshev", n, SpectralModel(su.table, thick, lm, SpectralSettings(n)))
-            for n in (32, 40)
-        ]
-        out += [
-            (
-                "mapped a=0.9",
-                16,
-                lab.MappedSpectralModel(su.table, thick, lm, SpectralSettings(16)),
-            ),
-            ("mapped a=0.9", top, lab.MappedSpectralModel(su.table, thick, lm, s)),
-            ("filter 36/16", top, lab.FilteredSpectralModel(su.table, thick, lm, s)),
-            ("smooth 0.5 K", top, SpectralModel(lab.smoothed_table(su.table, 0.5), thick, lm, s)),
-            ("smooth 2 K", top, SpectralModel(lab.smoothed_table(su.table, 2.0), thick, lm, s)),
-        ]
-    return out
-
-
-def stock_model(su: Setup, mm: float, n: int, mapped: bool = False) -> SpectralModel:
-    """Stock (or mapped-grid) reduced model of the demo food."""
-    kind = lab.MappedSpectralModel if mapped else SpectralModel
-    return kind(su.table, mm * 1e-3, su.lethality, SpectralSettings(n))
-
-
-def plan_configs(su: Setup, t0: float, cfg: Config) -> list[tuple[str, int, int]]:
-    """Planner variants for (c): (model kind, nodes, elements)."""
-    out = [("stock", n, 8) for n in cfg.nodes]
-    out += [("stock", 12, e) for e in cfg.elements if e != 8]
-    if cfg.lab:
-        out.append(("stock", max(cfg.nodes), 16))
-        if t0 < su.table.freezing_point_c:
-            out.append(("mapped", max(cfg.nodes), 8))
-    return out
-
-
-def run_plans(su: Setup, mm: float, t0: float, cfg: Config, say: Callable) -> list[dict]:
-    """Solve, then time the done on the model (node and fine rules) and on the reference."""
+def run_plans(su: Setup, mm: float, t0: float, variants, say: Callable) -> list[dict]:
+    """Solve, then time the done on the model (own and fine rules) and on the reference."""
     out, exact_cache = [], {}
-    for kind, n, el in plan_configs(su, t0, cfg):
-        model = stock_model(su, mm, n, mapped=kind == "mapped")
-        planner = Planner(model, su.env, su.requirement, su.min_gap_s, Grid(el))
-        flip, done, wall, cpu, note = plan(planner, t0)
-        row = {"kind": kind, "n": n, "el": el, "flip": flip, "done": done, "wall": wall}
-        row.update(cpu=cpu, note=note, nodes=np.nan, fine=np.nan, exact=np.nan)
-        if np.isfinite(done):
-            sch = one_flip(flip, done)
-            target = su.requirement.log_reduction
-            row["nodes"] = lab.done_on_model(model, su.env, sch, t0, target, points=0)
+    for v in variants:
+        model, row = plan(su, mm, t0, v)
+        row.update(own=np.nan, fine=np.nan, exact=np.nan)
+        if np.isfinite(row["done"]):
+            flip, done = row["flip"], row["done"]
+            sch, target = one_flip(flip, done), su.requirement.log_reduction
+            row["own"] = lab.done_on_model(model, su.env, sch, t0, target, points=0)
             row["fine"] = lab.done_on_model(model, su.env, sch, t0, target)
-            if round(flip, 6) not in exact_cache:
-                exact_cache[round(flip, 6)] = exact_done(su, mm, t0, flip, done)
-            row["exact"] = exact_cache[round(flip, 6)]
+            if round(flip, 4) not in exact_cache:
+                exact_cache[round(flip, 4)] = exact_done(su, mm, t0, flip, done)
+            row["exact"] = exact_cache[round(flip, 4)]
         out.append(row)
-        say(f"  plan {kind} {n}/{el}: {done:.3f} s vs {row['exact']:.3f} s, {wall:.1f} s")
+        say(f"  plan {v.label}: {row['done']:.3f} s vs {row['exact']:.3f} s, {row['wall']:.1f} s")
     return out
 
 
 def redo_done(su: Setup, mm: float, t0: float, cfg: Config, top: dict) -> dict:
-    """Done time for the top plan's flip from finer models and from the default reference."""
+    """Done time for the default plan's flip from finer models and from the default reference."""
     out: dict[str, tuple[float, float]] = {}
     if not np.isfinite(top["done"]):
         return out
     sch, target = one_flip(top["flip"], top["done"]), su.requirement.log_reduction
-    variants = [("stock", n) for n in ((32, 40) if cfg.lab else ())]
-    variants += [("mapped", max(cfg.nodes))] if cfg.lab else []
-    for kind, n in variants:
+    for n in (32, 40) if cfg.lab else ():
         w = time.perf_counter()
-        model = stock_model(su, mm, n, mapped=kind == "mapped")
-        done = lab.done_on_model(model, su.env, sch, t0, target)
-        out[f"{kind} {n}"] = (done / top["exact"] - 1.0, time.perf_counter() - w)
+        done = lab.done_on_model(
+            make_model(su, mm, replace(su.default, nodes=n)), su.env, sch, t0, target
+        )
+        out[f"{n} nodes, fine rule"] = (done / top["exact"] - 1.0, time.perf_counter() - w)
     w = time.perf_counter()
     done = exact_done(su, mm, t0, top["flip"], top["done"], DEFAULT_REF)
     out["reference 200/0.05"] = (done / top["exact"] - 1.0, time.perf_counter() - w)
@@ -328,6 +405,7 @@ def ref_gap(coarse: ReferenceResult, fine: ReferenceResult, sch: Schedule, su: S
 
 def run_case(su: Setup, mm: float, t0: float, cfg: Config, say: Callable[[str], None]) -> dict:
     """All measurements of one thickness and start."""
+    w = time.perf_counter()
     sch, ref_default = fixed_schedule(su, mm, t0)
     ref = reference(su, mm, t0, sch, TRUSTED)
     out = {"mm": mm, "t0": t0, "schedule": sch, "lr_ref": float(ref.log_reduction[-1].min())}
@@ -335,13 +413,15 @@ def run_case(su: Setup, mm: float, t0: float, cfg: Config, say: Callable[[str], 
     if cfg.fine_check == (mm, t0):
         out["trust_fine"] = ref_gap(ref, reference(su, mm, t0, sch, FINE), sch, su)
     out["fields"] = []
-    for label, n, model in models(su, mm, cfg):
+    for label, model in field_models(su, mm, cfg):
         h = reduced_history(model, su, t0, sch, ref)
-        out["fields"].append((label, n, field_errors(h, ref, sch, su)))
-        say(f"  fields {label} {n}")
-    out["plans"] = run_plans(su, mm, t0, cfg, say)
-    top = [p for p in out["plans"] if (p["kind"], p["n"], p["el"]) == ("stock", max(cfg.nodes), 8)]
-    out["redo"] = redo_done(su, mm, t0, cfg, top[0])
+        out["fields"].append((label, model.n, field_errors(h, model, ref, su, cfg)))
+        say(f"  fields {label}")
+    extra = cfg.plans_extra if (mm, t0) in cfg.extra_cases else ()
+    variants = (su.default, *[v for v in (*cfg.plans, *extra) if v != su.default])
+    out["plans"] = run_plans(su, mm, t0, variants, say)
+    out["redo"] = redo_done(su, mm, t0, cfg, out["plans"][0])
+    out["wall"] = time.perf_counter() - w
     return out
 
 
@@ -358,7 +438,8 @@ def format_case(r: dict) -> str:
     sch, tr = r["schedule"], r["trust"]
     lines = [
         f"== {r['mm']:g} mm, start {r['t0']:g} degC: fixed schedule flip {sch.events[0].at_s:.2f}"
-        f" s, done {sch.done_s:.2f} s; trusted reference min LR at done {r['lr_ref']:.4f}",
+        f" s, done {sch.done_s:.2f} s; trusted reference min LR at done {r['lr_ref']:.4f}"
+        f" (case {r['wall']:.0f} s)",
         f"   reference 200 cells/0.05 s vs 400/0.02: cold spot {tr['cold']:.4f} K, "
         f"time-to-target {100 * tr['time']:+.4f} %",
     ]
@@ -368,62 +449,86 @@ def format_case(r: dict) -> str:
             f"   reference 400/0.02 vs 800/0.01: cold spot {tf['cold']:.4f} K, "
             f"time-to-target {100 * tf['time']:+.4f} %"
         )
-    base = {n: e for lab_, n, e in r["fields"] if lab_ == "chebyshev"}
-    b24 = base[24] if 24 in base else base[max(base)]
+    rules = list(r["fields"][0][2]["lr"])
     lines += [
-        " (a) cold-spot error, K; (b) error of the smallest LR at removal, log10",
-        "  model          nodes   nodes    slab  /slab24     hot |  LR nodes   LR slab  /LR24",
+        " (a) cold-spot error, K | (b) error of the smallest LR at removal, log reductions",
+        "  model          nodes    slab     hot |     own" + "".join(f" {k:>9}" for k in rules),
     ]
-    for label, n, e in r["fields"]:
+    for label, _n, e in r["fields"]:
         lines.append(
-            f"  {label:<14} {n:5d} {e['cold_nodes']:7.3f} {e['cold_slab']:7.3f} "
-            f"{e['cold_slab'] / b24['cold_slab']:8.2f} {e['cold_hot']:7.3f} | "
-            f"{e['lr_nodes']:+9.4f} {e['lr_slab']:+9.4f} {abs(e['lr_slab'] / b24['lr_slab']):6.2f}"
+            f"  {label:<14} {e['cold_nodes']:5.3f} {e['cold_slab']:7.3f} {e['cold_hot']:7.3f} |"
+            f" {e['lr_own']:+7.3f}" + "".join(f" {e['lr'][k]:+9.4f}" for k in rules)
         )
-    default = [p for p in r["plans"] if (p["kind"], p["n"], p["el"]) == ("stock", 12, 8)][0]
+    default = r["plans"][0]
     lines += [
         " (c) plan with one flip; err: planned done vs the reference's exact done for that flip;",
-        "     time: planned vs CVODES on the same model and node rule; fine: CVODES done with",
-        "     the LR checked on 801 points, vs the reference",
-        "  model   nodes  el   flip s    done s   exact s    err %  /target   time %   fine %"
-        "   wall s  x12/8    cpu s",
+        "     own: planned vs CVODES on the same model and rule; fine: CVODES done with the",
+        "     LR checked on 801 points (global polynomial), vs the reference",
+        "  configuration        flip s    done s   exact s    err %   own %  fine %"
+        "   wall s  xwall    cpu s   xcpu",
     ]
     for p in r["plans"]:
         lines.append(
-            f"  {p['kind']:<7} {p['n']:5d} {p['el']:3d} {_f(p['flip'], '8.2f')}"
-            f" {_f(p['done'], '9.3f')} {_f(p['exact'], '9.3f')} {_pct(p['done'], p['exact'])}"
-            f" {_f(abs(p['done'] / p['exact'] - 1.0) / TARGET_COOK, '8.2f')}"
-            f" {_pct(p['done'], p['nodes'])} {_pct(p['fine'], p['exact'])} {p['wall']:8.1f}"
-            f" {p['wall'] / default['wall']:6.1f} {p['cpu']:8.1f}"
-            + (f"  ({p['note']})" if p["note"] else "")
+            f"  {p['v'].label:<18} {_f(p['flip'], '8.2f')} {_f(p['done'], '9.3f')}"
+            f" {_f(p['exact'], '9.3f')} {_pct(p['done'], p['exact'])}"
+            f" {_pct(p['done'], p['own'], '+7.3f')} {_pct(p['fine'], p['exact'], '+7.3f')}"
+            f" {p['wall']:8.1f} {p['wall'] / default['wall']:6.2f} {p['cpu']:8.1f}"
+            f" {p['cpu'] / default['cpu']:6.2f}" + (f"  ({p['note']})" if p["note"] else "")
         )
     for name, (err, wall) in r["redo"].items():
         lines.append(
-            f"  done for the {max(base) if 24 not in base else 24}-node plan's flip from {name}:"
-            f" err {_f(100 * err, '+.4f')} %, {wall:.1f} s"
+            f"  done for the default plan's flip from {name}: {100 * err:+.4f} %, {wall:.1f} s"
         )
     return "\n".join(lines)
 
 
-def format_summary(results: list[dict], top: int) -> str:
-    """One line per case at ``top`` nodes and 8 elements, with the targets."""
+def _plan_err(r: dict, v: Variant) -> tuple[float, float, float]:
+    """(err %, wall ratio, CPU ratio) of variant ``v`` in case ``r`` (NaN if absent)."""
+    hit = [p for p in r["plans"] if p["v"] == v]
+    if not hit:
+        return np.nan, np.nan, np.nan
+    p, d = hit[0], r["plans"][0]
+    return 100.0 * (p["done"] / p["exact"] - 1.0), p["wall"] / d["wall"], p["cpu"] / d["cpu"]
+
+
+def format_summary(results: list[dict], su: Setup) -> str:
+    """Key figures over all cases: (a) per node count, (b) per rule, (c) per configuration."""
+    heads = "".join(f" {r['mm']:>3g}mm{r['t0']:+4g}" for r in results)
     lines = [
-        f"== summary at {top} nodes, 8 elements (targets: cook time {100 * TARGET_COOK:g} %,"
-        f" cold spot {TARGET_COLD_K:g} K); cook-time errors in %",
-        "  case           cold slab K  cold hot K   LR slab |  planned  fine-rule  40 nodes"
-        "  ref 200/0.05",
+        f"== summary (targets: cook time {100 * TARGET_COOK:g} %, cold spot {TARGET_COLD_K:g}"
+        f" K, at most {MAX_STATES} states); default {su.default.label}",
+        " (a) cold-spot error of the interpolated field (slab), K",
+        "  nodes     " + heads + "      max",
     ]
+    for label, _n, _e in results[0]["fields"]:
+        v = [[e for lab_, _n, e in r["fields"] if lab_ == label][0]["cold_slab"] for r in results]
+        lines.append(f"  {label:<14}" + "".join(f" {x:9.3f}" for x in v) + f" {max(v):8.3f}")
+    lines += [
+        f" (b) LR error at {su.default.nodes} nodes, log reductions, per rule",
+        "  rule      " + heads,
+    ]
+    fields = [
+        [e for lab_, _n, e in r["fields"] if lab_ == f"chebyshev {su.default.nodes}"][0]
+        for r in results
+    ]
+    for k in results[0]["fields"][0][2]["lr"]:
+        lines.append(f"  {k:<14}" + "".join(f" {f['lr'][k]:+9.4f}" for f in fields))
+    lines += [
+        " (c) planned cook-time error, %; wall and CPU time of the solve / default (median)",
+        "  configuration " + heads[4:] + "   max|e|  xwall   xcpu  target",
+    ]
+    seen: list[Variant] = []
     for r in results:
-        e = [e for lab_, n, e in r["fields"] if (lab_, n) == ("chebyshev", top)][0]
-        p = [p for p in r["plans"] if (p["kind"], p["n"], p["el"]) == ("stock", top, 8)][0]
-        redo = r["redo"]
-        n40 = _f(100 * redo["stock 40"][0], "+9.3f") if "stock 40" in redo else "      n/a"
-        ref = _f(100 * redo["reference 200/0.05"][0], "+13.4f") if redo else "          n/a"
+        seen += [p["v"] for p in r["plans"] if p["v"] not in seen]
+    for v in seen:
+        e, wr, cr = np.array([_plan_err(r, v) for r in results]).T
+        ok = v.nodes <= MAX_STATES and np.all(np.abs(e[np.isfinite(e)]) <= 100 * TARGET_COOK)
+        ok_s = "met" if ok and np.isfinite(e).sum() == len(results) else "-" if not ok else "n/a"
         lines.append(
-            f"  {r['mm']:4g} mm {r['t0']:+4g} degC {e['cold_slab']:10.3f} {e['cold_hot']:11.3f}"
-            f" {e['lr_slab']:+9.4f} | {_pct(p['done'], p['exact'])}"
-            f" {_pct(p['fine'], p['exact'], '+10.3f')}"
-            f" {n40} {ref}"
+            f"  {v.label:<18}"
+            + "".join(f" {_f(x, '+9.3f') if x == x else '      n/a'}" for x in e)
+            + f" {np.nanmax(np.abs(e)):8.3f} {np.nanmedian(wr):6.2f}"
+            + f" {np.nanmedian(cr):6.2f}  {ok_s}"
         )
     return "\n".join(lines)
 
@@ -436,9 +541,8 @@ def run(
     """Measure every case of the quick or full configuration."""
     cfg = QUICK if quick else FULL
     su = demo_setup()
-    cases = CASES_QUICK if quick else [(t, s) for t in cfg.thicknesses_mm for s in cfg.starts_c]
     results = []
-    for mm, t0 in cases:
+    for mm, t0 in cfg.cases:
         say(f"case {mm:g} mm, {t0:g} degC")
         results.append(run_case(su, mm, t0, cfg, say))
         done(results[-1])
@@ -448,13 +552,13 @@ def run(
 def main(argv: list[str] | None = None) -> None:
     """Command line: run, print the tables."""
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    ap.add_argument("--quick", action="store_true", help="2-minute subset")
+    ap.add_argument("--quick", action="store_true", help="two cases, few configurations")
     ap.add_argument("-v", "--verbose", action="store_true", help="progress on stderr")
     args = ap.parse_args(argv)
     w = time.perf_counter()
     say = (lambda m: print(m, file=sys.stderr, flush=True)) if args.verbose else (lambda _m: None)
     results = run(args.quick, say, lambda r: print(format_case(r), end="\n\n", flush=True))
-    print(format_summary(results, max((QUICK if args.quick else FULL).nodes)))
+    print(format_summary(results, demo_setup()))
     print(f"(total {time.perf_counter() - w:.0f} s)")
 
 

@@ -80,6 +80,95 @@ def make_manifest():
     return manifest_module.synthetic_manifest
 
 
+# Bilinear test tables: one event pattern on every node but ODD_NODE, so cells touching it
+# fall back to the corner rule; platen_open at the done tick on the nodes in OPEN_AT_DONE.
+SHARED_PATTERN = ("platen_close", "flip", "platen_open", "done")
+ODD_PATTERN = ("flip", "flip", "done")
+ODD_NODE = 5
+OPEN_AT_DONE = (0, 4, 7, 10)
+TOLERANCES = {
+    "contact_low_fraction": 0.15,
+    "fat_fraction": [0.15, 0.25],
+    "plate_droop_k": 12.0,
+    "plate_offset_k": 5.0,
+    "plate_recovery_s": 40.0,
+    "start_temp_error_k": 1.0,
+    "thickness_error_m": 0.0005,
+}
+
+
+def _cell_events(k: int, done: int, tick_s: float) -> list[dict]:
+    """Events of node ``k`` with done at ``done`` ticks (invented, distinct gaps)."""
+    if k == ODD_NODE:
+        ticks = [done * 3 // 10, done * 6 // 10, done]
+        kinds = ODD_PATTERN
+    else:
+        opened = done if k in OPEN_AT_DONE else done * (70 + k) // 100
+        ticks = [done // (8 + k % 3), done * (40 + k) // 100, opened, done]
+        kinds = SHARED_PATTERN
+    return [
+        {"kind": kind, "at_s": round(t * tick_s, 6), "at_ticks": t}
+        for kind, t in zip(kinds, ticks, strict=True)
+    ]
+
+
+def _cell_list(m: dict, rule: str, pads, corner_cells=()) -> list[dict]:
+    ax, at = m["axes"]["thickness_m"], m["axes"]["start_temp_c"]
+    cells = []
+    for ci in range(len(ax) - 1):
+        for cj in range(len(at) - 1):
+            k = ci * (len(at) - 1) + cj
+            cells.append({
+                "ci": ci,
+                "cj": cj,
+                "rule": "corner" if rule == "corner" or k in corner_cells else "bilinear",
+                "done_pad_ticks": pads(k),
+                "min_margin_log": 0.5 + 0.0371 * k - (0.9 if k == 3 else 0.0),
+                "at": {"thickness_m": (ax[ci] + ax[ci + 1]) / 2,
+                       "start_temp_c": (at[cj] + at[cj + 1]) / 2},
+            })  # fmt: skip
+    return cells
+
+
+def cells_manifest(
+    name: str = "synthetic_grill",
+    thickness_m: tuple[float, ...] = (0.006, 0.009, 0.0125, 0.015),
+    start_temp_c: tuple[float, ...] = (-18.0, 0.0, 4.0),
+    max_ticks: int | None = None,
+    tolerances: dict | None = TOLERANCES,
+) -> dict:
+    """Synthetic manifest with ``cells`` (both rules) and ``tolerances`` (invented numbers).
+
+    Cell 4 of the bilinear list is marked "corner"; pads differ between the lists. With
+    ``max_ticks`` the done times are scaled so that the longest is exactly ``max_ticks``.
+    """
+    m = manifest_module.synthetic_manifest(name, thickness_m, start_temp_c)
+    tick_s = m["tick_s"]
+    done = [n["events"][-1]["at_ticks"] for n in m["nodes"]]
+    if max_ticks is not None:
+        done = [d * max_ticks // max(done) for d in done]
+        done[done.index(max(done))] = max_ticks
+    for k, node in enumerate(m["nodes"]):
+        node["events"] = _cell_events(k, done[k], tick_s)
+        node["cook_time_s"] = node["events"][-1]["at_s"]
+        node["flips"] = sum(e["kind"] == "flip" for e in node["events"])
+    m["max_events"] = max(len(n["events"]) for n in m["nodes"])
+    m["cells"] = {"corner": _cell_list(m, "corner", lambda k: k % 3)}
+    if len(thickness_m) > 1 and len(start_temp_c) > 1:
+        m["cells"]["bilinear"] = _cell_list(m, "bilinear", lambda k: (2 * k) % 5, (4,))
+    else:
+        m["cells"]["corner"] = []
+    if tolerances is not None:
+        m["tolerances"] = dict(tolerances)
+    return m
+
+
+@pytest.fixture
+def make_cells_manifest():
+    """Factory of synthetic manifests with cells and tolerances (invented numbers)."""
+    return cells_manifest
+
+
 # The harness reads one query per line from stdin and prints one answer per line:
 #   OK:     "0 node i j n_events cook_ticks margin_mlog kind:ticks ..."
 #   error:  "<status> <1 if *out was left untouched else 0>"
@@ -99,8 +188,9 @@ static void answer(int status, const ${p}_schedule_t *out, const ${p}_schedule_t
         printf("%d %d\n", status, memcmp(out, sentinel, sizeof *out) == 0);
         return;
     }
-    printf("%d %u %u %u %u %lu %ld", status, (unsigned)out->node, (unsigned)out->i_thickness,
-           (unsigned)out->j_start_temp, (unsigned)out->n_events, (unsigned long)out->cook_ticks,
+    printf("%d %u %u %u", status, (unsigned)out->node, (unsigned)out->i_thickness,
+           (unsigned)out->j_start_temp);${answer_cell}
+    printf(" %u %lu %ld", (unsigned)out->n_events, (unsigned long)out->cook_ticks,
            (long)out->margin_mlog);
     for (k = 0; k < out->n_events; ++k) {
         printf(" %u:%lu", (unsigned)out->kinds[k], (unsigned long)out->at_ticks[k]);
@@ -127,7 +217,7 @@ static void dump(void)
                    (unsigned long)${p}_event_ticks[n][k]);
         }
         printf("\n");
-    }
+    }${dump_cells}
 }
 
 int main(int argc, char **argv)
@@ -206,9 +296,23 @@ static const char *axis_int(int32_t v)
 }
 
 
-def harness_source(header: str, prefix: str, fixed: bool) -> str:
+# Bilinear targets: OK lines carry the cell and the rule after "node i j"; the dump adds
+# "cell k rule pad margin" lines.
+_BILINEAR_PARTS = {
+    "answer_cell": r"""
+    printf(" %u %u", (unsigned)out->cell, (unsigned)out->rule_used);""",
+    "dump_cells": r"""
+    for (n = 0; n < ${P}_N_CELLS; ++n) {
+        printf("cell %u %u %lu %ld\n", n, (unsigned)${p}_cell_rule[n],
+               (unsigned long)${p}_cell_pad_ticks[n], (long)${p}_cell_margin_mlog[n]);
+    }""",
+}
+
+
+def harness_source(header: str, prefix: str, fixed: bool, bilinear: bool = False) -> str:
     """C source of the lookup harness for ``header`` (symbol prefix ``prefix``)."""
-    parts = _FIXED_PARTS if fixed else _FLOAT_PARTS
+    parts = dict(_FIXED_PARTS if fixed else _FLOAT_PARTS)
+    parts.update(_BILINEAR_PARTS if bilinear else {"answer_cell": "", "dump_cells": ""})
     names = {"p": prefix, "P": prefix.upper()}
     filled = {k: Template(v).substitute(names) for k, v in parts.items()}
     return HARNESS.substitute(header=header, **names, **filled)

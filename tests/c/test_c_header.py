@@ -304,3 +304,34 @@ def test_header_is_clean_under_stricter_firmware_warnings(toolchain, tmp_path, m
     (tmp_path / "u.c").write_text(USER_UNIT.replace("@arg@", arg))
     proc = toolchain.compile([tmp_path / "u.c"], tmp_path / "u.o", ("-c", *FIRMWARE_WARNINGS))
     assert proc.returncode == 0, proc.stderr
+
+
+@pytest.mark.parametrize("target", ["c99", "c99_fixed"])
+def test_corner_done_pads_match_python(toolchain, tmp_path, harness, make_cells_manifest, target):
+    """With cells, the corner rule adds the cell's done pad (to done and a platen_open at
+    done); the C API is unchanged and the answers equal ``lookup(..., rule="corner")``."""
+    m = make_cells_manifest()
+    fixed = target == "c99_fixed"
+    exe = _build(toolchain, tmp_path, _header(m, target), "synthetic_grill", m["table"]["name"],
+                 fixed, harness)  # fmt: skip
+    if fixed:
+        ax, at = thickness_axis_um(m), start_temp_axis_cc(m)
+        pairs = [(int(x) + d, int(t) + e) for x in ax for t in at for d in (-1, 0, 1)
+                 for e in (-1, 0, 1)]  # fmt: skip
+        results = [lookup_fixed(m, x, t) for x, t in pairs]
+        stdin = "".join(f"{x} {t}\n" for x, t in pairs)
+    else:
+        pairs = float_queries(m, n_random=1000)
+        results = [lookup_f32(m, x, t) for x, t in pairs]
+        stdin = "".join(f"{_hex32(x)} {_hex32(t)}\n" for x, t in pairs)
+    got = toolchain.run(exe, ["int" if fixed else "f32"], stdin).splitlines()
+    assert got == [expected_line(m, r) for r in results]
+    padded = [r for r in results if r.status == 0 and r.events != _raw_events(m, r.node)]
+    assert padded and all(r.events[-1][1] > _raw_events(m, r.node)[-1][1] for r in padded)
+    # A platen_open at the done tick moved with done (node 4, raw 1525, in cell 1, pad 1).
+    r = next(r for r in results if r.node == 4)
+    assert r.events[-2:] == ((3, 1526), (0, 1526)) and r.cell == 1
+
+
+def _raw_events(m: dict, node: int) -> tuple:
+    return tuple((m["event_kinds"][e["kind"]], e["at_ticks"]) for e in m["nodes"][node]["events"])

@@ -18,6 +18,7 @@ from obvert.plan.ocp import Member, PlanError, Planner, Requirement
 from obvert.plan.quantize import quantize, to_ticks
 from obvert.plan.schedule import Schedule, Surroundings
 from obvert.spec.model import Spec
+from obvert.table.cells import CellResult
 from obvert.table.certify import Case, CertificationError, certify
 from obvert.table.scenarios import nominal, scenarios
 from obvert.thermal.boundary import FaceBC
@@ -111,10 +112,14 @@ class CookTable:
         The spec it was built from.
     nodes : tuple of Node
         Entries, index ``i * n_temps + j``.
+    cells : tuple of (str, tuple of CellResult)
+        Per lookup rule, the certified cells (empty until :mod:`obvert.table.compile`
+        has certified them).
     """
 
     spec: Spec
     nodes: tuple[Node, ...]
+    cells: tuple[tuple[str, tuple[CellResult, ...]], ...] = ()
 
 
 def surroundings(spec: Spec) -> Surroundings:

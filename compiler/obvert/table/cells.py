@@ -23,13 +23,14 @@ from __future__ import annotations
 
 import math
 from collections.abc import Callable, Mapping, Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from typing import Any
 
 import numpy as np
 
 from obvert.plan.schedule import EVENT_CODES, Event, Schedule
-from obvert.table.certify import Case, CertificationError, certify, judge_all
+from obvert.table.certify import Case, Verdict
+from obvert.table.judge_batch import judge_many
 from obvert.table.lookup import lookup_f32, lookup_fixed
 
 #: Random points per cell, on top of the four edge midpoints and the centre.
@@ -155,35 +156,23 @@ def with_cells(manifest: Mapping[str, Any], rule: str, cells: list[CellResult]) 
     return out
 
 
-def bilinear_cells(
-    manifest: Mapping[str, Any],
-    cases_at: CasesAt,
-    say: Callable[[str], None] | None = None,
-) -> list[CellResult]:
-    """Certify every cell for the bilinear rule (sampling, pad repair, corner fallback)."""
-    corner = {(c.ci, c.cj): c for c in corner_cells(manifest)}
-    trial = [
-        CellResult(
-            c.ci,
-            c.cj,
-            "bilinear" if _same_kinds(manifest, c.ci, c.cj) else "corner",
-            0,
-            c.min_margin_log,
-            c.at,
-            0,
-        )
-        for c in corner.values()
+def trial_cells(manifest: Mapping[str, Any]) -> list[CellResult]:
+    """Cells before sampling: bilinear where the four corners share an event sequence."""
+    return [
+        replace(c, rule="bilinear" if _same_kinds(manifest, c.ci, c.cj) else "corner")
+        for c in corner_cells(manifest)
     ]
-    base = with_cells(manifest, "bilinear", trial)
-    out = []
-    for k, cell in enumerate(trial):
-        if say is not None:
-            say(f"cell {k + 1}/{len(trial)} (bilinear): ci={cell.ci}, cj={cell.cj}")
-        if cell.rule == "corner":
-            out.append(corner[(cell.ci, cell.cj)])
-            continue
-        out.append(_bilinear_cell(base, cell, cases_at, corner[(cell.ci, cell.cj)]))
-    return out
+
+
+def bilinear_cell(manifest: Mapping[str, Any], cell: CellResult, cases_at: CasesAt) -> CellResult:
+    """Certify one cell for the bilinear rule (sampling, pad repair, corner fallback).
+
+    ``cell`` comes from :func:`trial_cells`; a corner-rule trial is returned as it is.
+    """
+    if cell.rule == "corner":
+        return cell
+    base = with_cells(manifest, "bilinear", trial_cells(manifest))
+    return _bilinear_cell(base, cell, cases_at, replace(cell, rule="corner"))
 
 
 def _bilinear_cell(
@@ -193,32 +182,66 @@ def _bilinear_cell(
     x = (float(ax[cell.ci]), float(ax[cell.ci + 1]))
     t = (float(at[cell.cj]), float(at[cell.cj + 1]))
     tick = float(manifest["tick_s"])
-    seed = 7919 * cell.ci + cell.cj
     work = [
-        (p, s, cases_at(*p))
-        for p in sample_points(x, t, seed)
+        (p, s, c)
+        for p in sample_points(x, t, 7919 * cell.ci + cell.cj)
         for s in lookup_schedules(manifest, "bilinear", *p)
+        for c in cases_at(*p)
     ]
-    pad = 0
-    for p, s, cases in work:
-        try:
-            cert = certify(cases, s, tick)
-        except CertificationError as exc:
-            raise CellError(f"cell ({cell.ci}, {cell.cj}) at {p}: {exc}") from None
-        pad = max(pad, round(cert.correction_s / tick))
+    longest = max(round(s.done_s / tick) for _, s, _ in work)
+    pad, verdicts, runs = _smallest_pad(work, tick, longest)
+    fallback = replace(fallback, samples=runs)
+    if pad is None:
+        return fallback
     centre = (0.5 * (x[0] + x[1]), 0.5 * (t[0] + t[1]))
     if pad > 0 and _no_faster(manifest, centre, pad):
         return fallback
-    worst, where = math.inf, centre
-    for p, s, cases in work:
-        padded = s.with_done(s.done_s + pad * tick)
-        v = judge_all(cases, padded)
-        if not v.passed:
-            raise CellError(f"cell ({cell.ci}, {cell.cj}) at {p}: fails even with pad {pad}")
-        margin = v.min_log_reduction - cases[0].requirement.log_reduction
-        if margin < worst:
-            worst, where = margin, p
-    return CellResult(cell.ci, cell.cj, "bilinear", pad, worst, where, len(work))
+    target = work[0][2].requirement.log_reduction
+    margins = [v.min_log_reduction - target for v in verdicts]
+    k = int(np.argmin(margins))
+    return CellResult(cell.ci, cell.cj, "bilinear", pad, margins[k], work[k][0], runs)
+
+
+def _smallest_pad(
+    work: list[tuple[tuple[float, float], Schedule, Case]], tick: float, limit: int
+) -> tuple[int | None, list[Verdict], int]:
+    """Smallest done pad (ticks, up to ``limit``) with which every sample passes.
+
+    Doubling from ``limit / 256`` then bisection down to ``limit / 1000`` (at least one
+    tick; a coarser pad is only longer, never less safe); every trial simulates all
+    samples at once. Returns the pad (None: none up to ``limit``), the verdicts of the
+    exact padded schedules and the number of reference runs made.
+    """
+    runs = 0
+
+    def run(pad: int) -> list[Verdict]:
+        nonlocal runs
+        runs += len(work)
+        scheds = [s.with_done(s.done_s + pad * tick) for _, s, _ in work]
+        return judge_many([c for _, _, c in work], scheds)
+
+    best = run(0)
+    if all(v.passed for v in best):
+        return 0, best, runs
+    resolution = max(1, limit // 1000)
+    lo, step, hi = 0, max(1, limit // 256), None
+    while hi is None:
+        trial = min(step, limit)
+        vs = run(trial)
+        if all(v.passed for v in vs):
+            hi, best = trial, vs
+        elif trial >= limit:
+            return None, best, runs
+        else:
+            lo, step = trial, step * 2
+    while hi - lo > resolution:
+        mid = (lo + hi) // 2
+        vs = run(mid)
+        if all(v.passed for v in vs):
+            hi, best = mid, vs
+        else:
+            lo = mid
+    return hi, best, runs
 
 
 def _no_faster(manifest: Mapping[str, Any], p: tuple[float, float], pad: int) -> bool:

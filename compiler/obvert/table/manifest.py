@@ -8,7 +8,9 @@ from obvert import CAUTION, __version__
 from obvert.emit import canonical_sha256
 from obvert.plan.quantize import to_ticks
 from obvert.plan.schedule import EVENT_CODES
+from obvert.spec.model import ToleranceSpec
 from obvert.table.build import CookTable, Node
+from obvert.table.cells import CellResult
 
 FORMAT_VERSION = 1
 
@@ -51,6 +53,10 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "margin_log": _r(node.margin_log),
         "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
         "bounds_s": {k: (None if v is None else _r(v)) for k, v in node.bounds_s},
+        "nominal_planned_s": None if node.nominal_planned_s is None else _r(node.nominal_planned_s),
+        "price_of_robustness_s": None
+        if node.nominal_planned_s is None
+        else _r(node.planned_cook_time_s - node.nominal_planned_s),
         "candidates": [
             {
                 "flips": c.flips,
@@ -65,6 +71,44 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
     }
 
 
+def _tolerances(tol: ToleranceSpec) -> dict[str, Any]:
+    return {
+        "plate_offset_k": tol.plate_offset_k,
+        "plate_droop_k": tol.plate_droop_k,
+        "plate_recovery_s": tol.plate_recovery_s,
+        "contact_low_fraction": tol.contact_low_fraction,
+        "thickness_error_m": tol.thickness_error_m,
+        "start_temp_error_k": tol.start_temp_error_k,
+        "fat_fraction": None if tol.fat_fraction is None else list(tol.fat_fraction),
+    }
+
+
+def _cell_dict(c: CellResult) -> dict[str, Any]:
+    return {
+        "ci": c.ci,
+        "cj": c.cj,
+        "rule": c.rule,
+        "done_pad_ticks": c.done_pad_ticks,
+        "min_margin_log": _r(c.min_margin_log),
+        "at": {"thickness_m": _r(c.at[0]), "start_temp_c": _r(c.at[1])},
+        "samples": c.samples,
+    }
+
+
+def _price(nodes: list[dict[str, Any]]) -> dict[str, Any] | None:
+    rows = [n for n in nodes if n["price_of_robustness_s"] is not None]
+    if not rows:
+        return None
+    worst = max(rows, key=lambda n: n["price_of_robustness_s"] / n["nominal_planned_s"])
+    return {
+        "max_s": max(n["price_of_robustness_s"] for n in rows),
+        "max_fraction": _r(worst["price_of_robustness_s"] / worst["nominal_planned_s"]),
+        "mean_fraction": _r(
+            sum(n["price_of_robustness_s"] / n["nominal_planned_s"] for n in rows) / len(rows)
+        ),
+    }
+
+
 def manifest(table: CookTable) -> dict[str, Any]:
     """Canonical, JSON-safe description of ``table`` (schema in docs/table-format.md)."""
     spec = table.spec
@@ -73,7 +117,7 @@ def manifest(table: CookTable) -> dict[str, Any]:
     nodes = [_node_dict(n, tick) for n in table.nodes]
     margins = [n["margin_log"] for n in nodes]
     s = spec.safety
-    return {
+    out: dict[str, Any] = {
         "format_version": FORMAT_VERSION,
         "generator": {"name": "obvert", "version": __version__},
         "caution": CAUTION,
@@ -108,5 +152,10 @@ def manifest(table: CookTable) -> dict[str, Any]:
             "smallest_margin_log": min(margins),
             "nodes_corrected": sum(1 for n in nodes if n["correction_s"] > 0.0),
             "longest_cook_time_s": max(n["cook_time_s"] for n in nodes),
+            "price_of_robustness": _price(nodes),
         },
+        "tolerances": _tolerances(spec.tolerances),
     }
+    if table.cells:
+        out["cells"] = {rule: [_cell_dict(c) for c in cells] for rule, cells in table.cells}
+    return out

@@ -8,11 +8,16 @@ Nothing in the build uses this module; it holds the prototypes the benchmark com
   (barycentric Lagrange interpolation, Berrut, J.-P. and Trefethen, L. N. (2004),
   "Barycentric Lagrange interpolation", SIAM Review 46(3):501-517, eq. 5.4 with the
   Chebyshev-Lobatto weights).
+* :func:`point_matrix`: temperatures at any lethality points from the node temperatures,
+  by the model's own rule (local Lagrange on ``lethality_stencil`` nodes, or the global
+  polynomial), for any grid (stock or mapped).
 * :func:`done_on_model`: the earliest done time on the reduced model itself for given
-  events (CVODES), with the log reduction checked either at the Chebyshev nodes (the
-  planner's rule) or on a fine grid of interpolated temperatures. The nodes are sparse
-  mid-slab, and at removal the log reduction has a valley a few tenths of a millimetre
-  wide between the parts heated before and after the flip, so the node rule misses it.
+  events (CVODES), with the log reduction checked either at the model's own lethality
+  points (the planner's rule) or on a fine grid of interpolated temperatures. At removal
+  the log reduction has a narrow valley between the parts heated before and after the
+  flip, and the smallest value over a set of points overstates its bottom.
+* :func:`lethality_layout` and :class:`ClusteredSpectralModel`: lethality points denser
+  mid-slab (where the valley lies) and sparser at the faces, the nodes unchanged.
 * :class:`MappedSpectralModel`: Chebyshev collocation on the mapped grid
   ``x = L (1 - arcsin(a xi)/arcsin(a)) / 2`` of Kosloff, D. and Tal-Ezer, H. (1993),
   "A modified Chebyshev pseudospectral method with an O(N^-1) time step restriction",
@@ -44,6 +49,7 @@ from obvert.thermal.spectral import (
     SpectralSettings,
     chebyshev_matrix,
     face_flux,
+    local_interpolation_matrix,
 )
 
 Array = NDArray[np.float64]
@@ -95,6 +101,86 @@ def sensor_points(thickness_m: float, count: int) -> Array:
     return np.linspace(0.0, thickness_m, count)
 
 
+def lethality_layout(thickness_m: float, count: int, alpha: float = 0.0) -> Array:
+    """``count`` lethality points on [0, L], faces included, symmetric under a flip, m.
+
+    Parameters
+    ----------
+    thickness_m : float
+        Slab thickness L, m.
+    count : int
+        Number of points (>= 3), -.
+    alpha : float
+        0: equally spaced; in (0, 1): ``x = L (1 + arcsin(alpha u) / arcsin(alpha)) / 2`` of
+        equally spaced ``u`` in [-1, 1] (the inverse of a Chebyshev-like clustering), so
+        the spacing at a face is ``1 / sqrt(1 - alpha**2)`` times that mid-slab, -.
+
+    Returns
+    -------
+    ndarray, shape (count,)
+        Ascending positions, m.
+    """
+    if count < 3:
+        raise ValueError(f"count = {count!r}: allowed an integer >= 3")
+    if not 0.0 <= alpha < 1.0:
+        raise ValueError(f"alpha = {alpha!r}: allowed 0 <= alpha < 1")
+    u = np.linspace(-1.0, 1.0, count)
+    g = np.arcsin(alpha * u) / math.asin(alpha) if alpha > 0.0 else u
+    g[0], g[-1] = -1.0, 1.0
+    x = 0.5 * thickness_m * (1.0 + g)
+    return 0.5 * (x + (thickness_m - x[::-1]))  # exactly symmetric
+
+
+def point_matrix(model: SpectralModel, x_m: Array, stencil: int | None = None) -> Array:
+    """Matrix taking node temperatures of ``model`` to temperatures at ``x_m`` (m).
+
+    ``stencil`` (default: the model's ``lethality_stencil``) > 0: local Lagrange on that
+    many nearest nodes; 0: the global polynomial (:func:`interpolation_matrix`).
+    """
+    width = model.settings.lethality_stencil if stencil is None else stencil
+    if width:
+        return local_interpolation_matrix(model.x_m, np.asarray(x_m, dtype=float), width)
+    return interpolation_matrix(model, x_m)
+
+
+def _relayout(model: SpectralModel, x_lr: Array | None) -> None:
+    """Reset the lethality points of ``model`` (None: keep the count, equally spaced)."""
+    if model.settings.lethality_points == 0:
+        model.x_lr, model.p_lr = model.x_m.copy(), np.eye(model.n)
+        return
+    if x_lr is None:
+        x_lr = sensor_points(model.thickness_m, model.settings.lethality_points)
+    model.x_lr, model.p_lr = x_lr, point_matrix(model, x_lr)
+    model.m = int(x_lr.size)
+
+
+class ClusteredSpectralModel(SpectralModel):
+    """Stock model whose lethality points follow :func:`lethality_layout` with ``alpha``.
+
+    Parameters
+    ----------
+    table, thickness_m, lethality, settings
+        As for :class:`SpectralModel` (``lethality_points`` > 0).
+    alpha : float
+        Layout parameter of :func:`lethality_layout`, -.
+    """
+
+    def __init__(
+        self,
+        table: PropertyTable,
+        thickness_m: float,
+        lethality: LethalityModel,
+        settings: SpectralSettings | None = None,
+        alpha: float = 0.9,
+    ) -> None:
+        super().__init__(table, thickness_m, lethality, settings)
+        if self.settings.lethality_points == 0:
+            raise ValueError("settings.lethality_points = 0: a layout needs points (>= 3)")
+        self.alpha_lr = float(alpha)
+        m = self.settings.lethality_points
+        _relayout(self, lethality_layout(self.thickness_m, m, alpha))
+
+
 class MappedSpectralModel(SpectralModel):
     """Spectral model on the Kosloff-Tal-Ezer mapped grid (see the module docstring).
 
@@ -125,6 +211,7 @@ class MappedSpectralModel(SpectralModel):
         d_xi = -chebyshev_matrix(self.n, 2.0)
         self.x_m = 0.5 * self.thickness_m * (1.0 - g)
         self.d = (-2.0 / self.thickness_m) * (d_xi / dg_dxi[:, None])
+        _relayout(self, None)  # interpolate from the mapped nodes
 
 
 class FilteredSpectralModel(SpectralModel):
@@ -163,7 +250,7 @@ class FilteredSpectralModel(SpectralModel):
         q = -ca.mtimes(ca.DM(self.d_flux), u)
         q = ca.vertcat(face_flux(face0, temp[0]), q[1:-1], -face_flux(face1, temp[-1]))
         ds = -ca.mtimes(ca.DM(self.d), q) / self.e_scale
-        return ca.vertcat(ds, _rate(self.lethality, temp))
+        return ca.vertcat(ds, _rate(self.lethality, self.lethality_temps(temp)))
 
 
 def _rate(lm: LethalityModel, temp: ca.MX) -> ca.MX:
@@ -230,8 +317,9 @@ def done_on_model(
     target : float
         Log reduction the smallest value must reach, log10.
     points : int
-        > 0: LR integrated (trapezoid) from the temperature interpolated on that many equally
-        spaced points across the slab; 0: the model's node LR states (the planner's rule).
+        > 0: LR integrated (trapezoid) from the temperature interpolated (global polynomial)
+        on that many equally spaced points across the slab; 0: the model's own LR states at
+        its lethality points (the planner's rule).
     dt_s : float
         Largest output interval, s.
 
