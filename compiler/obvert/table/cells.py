@@ -15,8 +15,8 @@ A cell is the rectangle between four neighbouring nodes. For each lookup rule:
   measured start minus the temperature error, slow plate). A failure is repaired by a
   done-time pad for the cell (the smallest, in ticks, that makes every sample pass, then
   every sample is simulated again with it). When the pad would make interpolation no
-  faster than the corner rule at the cell centre, or the corners run different event
-  sequences, the cell falls back to the corner rule.
+  faster than the corner rule at the cell centre (the pad search stops there), or the
+  corners run different event sequences, the cell falls back to the corner rule.
 """
 
 from __future__ import annotations
@@ -188,13 +188,13 @@ def _bilinear_cell(
         for s in lookup_schedules(manifest, "bilinear", *p)
         for c in cases_at(*p)
     ]
-    longest = max(round(s.done_s / tick) for _, s, _ in work)
-    pad, verdicts, runs = _smallest_pad(work, tick, longest)
+    centre = (0.5 * (x[0] + x[1]), 0.5 * (t[0] + t[1]))
+    # A pad as long as the corner rule's advantage at the centre makes interpolation
+    # pointless: search no further, fall back.
+    limit = _corner_advantage(manifest, centre)
+    pad, verdicts, runs = _smallest_pad(work, tick, limit)
     fallback = replace(fallback, samples=runs)
     if pad is None:
-        return fallback
-    centre = (0.5 * (x[0] + x[1]), 0.5 * (t[0] + t[1]))
-    if pad > 0 and _no_faster(manifest, centre, pad):
         return fallback
     target = work[0][2].requirement.log_reduction
     margins = [v.min_log_reduction - target for v in verdicts]
@@ -223,6 +223,8 @@ def _smallest_pad(
     best = run(0)
     if all(v.passed for v in best):
         return 0, best, runs
+    if limit <= 0:
+        return None, best, runs
     resolution = max(1, limit // 1000)
     lo, step, hi = 0, max(1, limit // 256), None
     while hi is None:
@@ -244,9 +246,9 @@ def _smallest_pad(
     return hi, best, runs
 
 
-def _no_faster(manifest: Mapping[str, Any], p: tuple[float, float], pad: int) -> bool:
-    """Padded interpolation at ``p`` is no shorter than the corner rule there."""
+def _corner_advantage(manifest: Mapping[str, Any], p: tuple[float, float]) -> int:
+    """Ticks by which the corner rule's done exceeds the interpolated done at ``p`` (>= 0)."""
     tick = float(manifest["tick_s"])
-    bil = max(s.done_s for s in lookup_schedules(manifest, "bilinear", *p)) + pad * tick
+    bil = max(s.done_s for s in lookup_schedules(manifest, "bilinear", *p))
     cor = min(s.done_s for s in lookup_schedules(manifest, "corner", *p))
-    return bil >= cor
+    return max(0, round((cor - bil) / tick) - 1)

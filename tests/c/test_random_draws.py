@@ -93,3 +93,19 @@ def test_random_draws_meet_the_target(toolchain, tmp_path, harness, built_tolera
     margin = min(v.min_log_reduction for v in verdicts) - target
     print(f"{DRAWS} draws: smallest margin {margin:.4f} log")  # noqa: T201
     assert margin >= 0.0
+
+
+@pytest.mark.bench
+@pytest.mark.parametrize("toolchain", ["gcc"], indirect=True)
+def test_ten_thousand_draws_meet_the_target(toolchain, tmp_path, harness, built_tolerances):
+    """The longer run of the issue (10,000 draws): ``pytest -m bench tests/c``."""
+    b = built_tolerances
+    n = 10_000
+    cases, schedules = draw_cases(
+        b.spec, b.manifest, toolchain, tmp_path, harness, b.out, n, seed=20261202
+    )
+    verdicts = judge_many(cases, schedules)
+    failed = sum(not v.passed for v in verdicts)
+    margin = min(v.min_log_reduction for v in verdicts) - b.spec.safety.log_reduction
+    print(f"{n} draws: {failed} below target, smallest margin {margin:.4f} log")  # noqa: T201
+    assert failed == 0
