@@ -10,8 +10,10 @@ rest phase, or the last phase without a rest) must reach ``min_temp_c`` if that 
 
 from __future__ import annotations
 
+import multiprocessing
 import re
 from collections.abc import Sequence
+from concurrent.futures import ProcessPoolExecutor
 
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.table.certify import Case, Verdict
@@ -33,8 +35,14 @@ def _verdict(case: Case, summary: ReferenceSummary) -> Verdict:
     return Verdict(lr, t_min, bool(ok))
 
 
-def judge_many(cases: Sequence[Case], schedules: Sequence[Schedule]) -> list[Verdict]:
+def judge_many(
+    cases: Sequence[Case], schedules: Sequence[Schedule], jobs: int = 1
+) -> list[Verdict]:
     """Simulate ``schedules[i]`` for ``cases[i]`` on the reference model and judge each.
+
+    With ``jobs > 1`` the runs are split into ``jobs`` interleaved shares simulated in
+    separate processes; every run is the same computation either way (each case's result
+    does not depend on which cases share its batch), so the verdicts are identical.
 
     Parameters
     ----------
@@ -59,6 +67,8 @@ def judge_many(cases: Sequence[Case], schedules: Sequence[Schedule]) -> list[Ver
         raise ValueError(
             f"len(schedules) = {len(schedules)} is invalid: must equal len(cases) = {len(cases)}"
         )
+    if jobs > 1 and len(cases) > 1:
+        return _parallel(cases, schedules, jobs)
     groups: dict[tuple[int, object, object], list[int]] = {}
     for i, case in enumerate(cases):
         groups.setdefault((id(case.table), case.lethality, case.settings), []).append(i)
@@ -77,3 +87,19 @@ def judge_many(cases: Sequence[Case], schedules: Sequence[Schedule]) -> list[Ver
         for i, summary in zip(members, summaries, strict=True):
             verdicts[i] = _verdict(cases[i], summary)
     return [v for v in verdicts if v is not None]
+
+
+def _parallel(cases: list[Case], schedules: list[Schedule], jobs: int) -> list[Verdict]:
+    """:func:`judge_many` over ``jobs`` processes (interleaved shares, order kept)."""
+    n = min(jobs, len(cases))
+    ctx = multiprocessing.get_context("spawn")
+    with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as pool:
+        parts = list(
+            pool.map(
+                judge_many, [cases[k::n] for k in range(n)], [schedules[k::n] for k in range(n)]
+            )
+        )
+    out: list[Verdict] = [parts[0][0]] * len(cases)
+    for k, part in enumerate(parts):
+        out[k::n] = part
+    return out
