@@ -19,3 +19,10 @@ class SpecError(ValueError):
     def __init__(self, path: str, value: object, allowed: str) -> None:
         self.path, self.value, self.allowed = path, value, allowed
         super().__init__(f"{path} = {value!r}: allowed {allowed}")
+
+
+def range_check(path: str, value: float, lo: float, hi: float, unit: str) -> float:
+    """Return ``value`` if ``lo <= value <= hi``, else raise SpecError naming ``path``."""
+    if not lo <= value <= hi:
+        raise SpecError(path, value, f"{lo:g} to {hi:g} {unit}")
+    return value

@@ -15,6 +15,7 @@ from typing import Any
 from obvert.food.choi_okos import Composition
 from obvert.food.presets import PRESETS
 from obvert.spec.errors import SpecError
+from obvert.spec.errors import range_check as _range_check
 from obvert.spec.model import (
     ApplianceSpec,
     FoodSpec,
@@ -24,8 +25,8 @@ from obvert.spec.model import (
     PropertyValue,
     SafetySpec,
     Spec,
-    ToleranceSpec,
 )
+from obvert.spec.tolerances import tolerances_section
 from obvert.spec.units import quantity
 
 if sys.version_info >= (3, 11):
@@ -97,12 +98,6 @@ class _Section:
             raise SpecError(
                 self._p(extra[0]), self.data[extra[0]], f"one of the known keys {sorted(self.used)}"
             )
-
-
-def _range_check(path: str, value: float, lo: float, hi: float, unit: str) -> float:
-    if not lo <= value <= hi:
-        raise SpecError(path, value, f"{lo:g} to {hi:g} {unit}")
-    return value
 
 
 def _property(sec: _Section, key: str, kind: str) -> PropertyValue:
@@ -311,45 +306,6 @@ def _lethality_points(sec: _Section) -> int:
     return n
 
 
-def _tolerances(sec: _Section | None, food: FoodSpec) -> ToleranceSpec:
-    if sec is None:
-        return ToleranceSpec()
-
-    def diff(key: str, kind: str, hi: float, unit: str) -> float:
-        v = sec.qty(key, kind, None)
-        return 0.0 if v is None else _range_check(sec._p(key), v, 0.0, hi, unit)
-
-    offset = diff("plate_offset", "temperature_difference", 60.0, "K")
-    droop = diff("plate_droop", "temperature_difference", 60.0, "K")
-    rec = sec.qty("plate_recovery", "time", None)
-    recovery = 30.0 if rec is None else _range_check(sec._p("plate_recovery"), rec, 0.1, 600.0, "s")
-    if rec is not None and droop == 0.0:
-        raise SpecError(sec._p("plate_recovery"), rec, "only together with plate_droop > 0")
-    contact = sec.number("contact_low", 0.0, 0.5, 0.0)
-    thick = diff("thickness_error", "length", 0.005, "m")
-    temp = diff("start_temp_error", "temperature_difference", 10.0, "K")
-    fat = _fat_range(sec, food)
-    sec.done()
-    return ToleranceSpec(offset, droop, recovery, contact, thick, temp, fat)
-
-
-def _fat_range(sec: _Section, food: FoodSpec) -> tuple[float, float] | None:
-    raw = sec.raw("fat_fraction", None)
-    if raw is None:
-        return None
-    path = sec._p("fat_fraction")
-    ok = isinstance(raw, list) and len(raw) == 2
-    ok = ok and all(isinstance(v, int | float) and not isinstance(v, bool) for v in raw)
-    if not ok or not 0.0 <= raw[0] <= raw[1] < 0.9:
-        raise SpecError(path, raw, "[low, high] mass fractions with 0 <= low <= high < 0.9")
-    if food.composition is None:
-        raise SpecError(path, raw, "a fat range only for a food given by [food.composition]")
-    fat = food.composition.fat
-    if not raw[0] <= fat <= raw[1]:
-        raise SpecError(path, raw, f"a range that holds the nominal fat fraction {fat:g}")
-    return (float(raw[0]), float(raw[1]))
-
-
 def spec_from_dict(data: dict[str, Any]) -> Spec:
     """Build a :class:`Spec` from a parsed TOML document.
 
@@ -374,7 +330,7 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
     appliance = _appliance(top.section("appliance"))
     safety = _safety(top.section("safety"))
     planning = _planning(top.section("planning", required=False))
-    tolerances = _tolerances(top.section("tolerances", required=False), food)
+    tolerances = tolerances_section(top.section("tolerances", required=False), food)
     out_sec = top.section("outputs", required=False) or _Section({}, "outputs")
     targets = out_sec.raw("targets", ["c99", "json"])
     if not isinstance(targets, list) or not targets or not all(isinstance(t, str) for t in targets):
