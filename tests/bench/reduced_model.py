@@ -1,7 +1,9 @@
 """Benchmark: the reduced spectral model and its planner against the finite-volume reference.
 
-Usage: ``nice -n 10 python tests/bench/reduced_model.py [--quick] [-v]`` (full: about an hour
-on two shared cores; quick: a few minutes). Method and measured figures: docs/reduced-model.md.
+Usage: ``nice -n 10 python tests/bench/reduced_model.py [--quick] [-v] [--case MM,DEGC]...
+[--plan N/P/S/E[/cA][/gG][/mapped]]...`` (full: 35 min on two shared cores; quick: about 3
+min; ``--case`` keeps only those cases, ``--plan`` plans those configurations instead, after
+the default). Method and measured figures: docs/reduced-model.md.
 
 The demo food and appliance (compiler/obvert/demo/griddle_patty.toml) with the
 salmonella_beef_7log preset and its 7-log target (no minimum-temperature rule), one flip.
@@ -13,8 +15,9 @@ A configuration is written ``nodes/points/stencil eE``: Chebyshev nodes (the mod
 one enthalpy each), lethality points (quadrature outputs where the log reduction is
 integrated, not states; 0: at the nodes), nodes each point interpolates from (0: the
 global polynomial), Radau elements per phase; ``cA``: points clustered mid-slab
-(lab ``lethality_layout`` with alpha A); ``mapped``: the lab's mapped grid. The default is
-what the build uses (the spec's [planning] defaults, SpectralSettings' stencil).
+(lab ``lethality_layout`` with alpha A); ``gG``: element grading G (default 1.35);
+``mapped``: the lab's mapped grid. The default is what the build uses (the spec's
+[planning] defaults, SpectralSettings' stencil).
 
 (a) cold-spot error: max over time of |min over slab T_reduced - min over slab T_ref| on a
     fixed schedule (one flip at 45 % of the cook, done at the reference's time-to-target),
@@ -77,6 +80,7 @@ class Variant:
     elements: int = 8
     alpha: float = 0.0  # lethality layout, 0: equally spaced
     mapped: bool = False
+    grading: float = Grid().grading  # ratio of consecutive element lengths
 
     @property
     def rule(self) -> str:
@@ -90,7 +94,22 @@ class Variant:
         """Full configuration."""
         rule = f"{self.points}/{self.stencil}" if self.points else "0"
         tail = (f" c{self.alpha:g}" if self.alpha else "") + (" mapped" if self.mapped else "")
+        tail += f" g{self.grading:g}" if self.grading != Grid().grading else ""
         return f"{self.nodes}/{rule} e{self.elements}{tail}"
+
+    @classmethod
+    def parse(cls, text: str) -> Variant:
+        """From ``nodes/points/stencil/elements[/cALPHA][/gGRADING][/mapped]``."""
+        part = text.split("/")
+        if len(part) < 4 or not all(x.isdigit() for x in part[:4]):
+            raise ValueError(f"plan {text!r}: allowed nodes/points/stencil/elements[/cA][/gG]")
+        v = cls(*(int(x) for x in part[:4]))
+        for x in part[4:]:
+            key = {"c": "alpha", "g": "grading", "m": "mapped"}.get(x[:1], "")
+            if not key or (key == "mapped") != (x == "mapped"):
+                raise ValueError(f"plan {text!r}: {x!r} is not cA, gG or mapped")
+            v = replace(v, **{key: True if key == "mapped" else float(x[1:])})
+        return v
 
 
 def _v(nodes: int, points: int, stencil: int = 4, **kw: Any) -> Variant:
@@ -121,26 +140,12 @@ class Config:
 
 
 CASES_QUICK = ((6.0, 4.0), (10.0, -18.0))
+CASES_ALL = tuple((mm, t0) for mm in (6.0, 10.0, 15.0, 25.0) for t0 in (4.0, -18.0))
 FULL = Config(
-    tuple((mm, t0) for mm in (6.0, 10.0, 15.0, 25.0) for t0 in (4.0, -18.0)),
-    (8, 12, 16, 20, 24),
-    RULES,
-    PLANS,
-    PLANS_EXTRA,
-    CASES_QUICK,
-    True,
-    (10.0, -18.0),
+    CASES_ALL, (8, 12, 16, 20, 24), RULES, PLANS, PLANS_EXTRA, CASES_QUICK, True, (10, -18)
 )
-QUICK = Config(
-    CASES_QUICK,
-    (16, 24),
-    (_v(16, 0), _v(16, 21), _v(16, 41)),
-    (_v(16, 21), _v(16, 41)),
-    (),
-    (),
-    False,
-    None,
-)
+QUICK_RULES, QUICK_PLANS = (_v(16, 0), _v(16, 21), _v(16, 41)), (_v(16, 21), _v(16, 41))
+QUICK = Config(CASES_QUICK, (16, 24), QUICK_RULES, QUICK_PLANS, (), (), False, (10, -18))
 
 
 @dataclass(frozen=True)
@@ -300,12 +305,14 @@ def field_errors(h: History, model: SpectralModel, ref: ReferenceResult, su: Set
     hot = keep & (cold_ref >= HOT_C)
     lr_ref = float(ref.log_reduction[-1].min())
     slab = np.abs(h.cold_slab[1:] - cold_ref)
+    worst = int(np.argmax(np.where(keep, slab, -1.0)))
     lr = {v.rule: rule_lr(h, model, v, su.lethality) - lr_ref for v in cfg.rules}
     lr["slab"] = rule_lr(h, model, _v(model.n, X_FINE, 0), su.lethality) - lr_ref
     return {
         "cold_nodes": float(np.abs(h.temps[1:].min(axis=1) - cold_ref)[keep].max()),
         "cold_slab": float(slab[keep].max()),
         "cold_hot": float(slab[hot].max()) if hot.any() else np.nan,
+        "worst": (float(t[worst]), float(cold_ref[worst])),
         "lr_own": h.lr_own - lr_ref,
         "lr": lr,
     }
@@ -333,7 +340,9 @@ def field_models(su: Setup, mm: float, cfg: Config) -> list[tuple[str, SpectralM
 def plan(su: Setup, mm: float, t0: float, v: Variant) -> tuple[SpectralModel, dict]:
     """Zero-flip seed solve, then the timed one-flip solve; NaN times when it fails."""
     model = make_model(su, mm, v)
-    planner = Planner(model, su.env, su.requirement, su.min_gap_s, Grid(v.elements))
+    planner = Planner(
+        model, su.env, su.requirement, su.min_gap_s, Grid(v.elements, grading=v.grading)
+    )
     row = {"v": v, "flip": np.nan, "done": np.nan, "note": ""}
     try:
         d0 = planner.solve((), t0).dwell_s[0]
@@ -452,11 +461,13 @@ def format_case(r: dict) -> str:
     rules = list(r["fields"][0][2]["lr"])
     lines += [
         " (a) cold-spot error, K | (b) error of the smallest LR at removal, log reductions",
-        "  model          nodes    slab     hot |     own" + "".join(f" {k:>9}" for k in rules),
+        "  model          nodes    slab    at s  Tref C     hot |     own"
+        + "".join(f" {k:>9}" for k in rules),
     ]
     for label, _n, e in r["fields"]:
         lines.append(
-            f"  {label:<14} {e['cold_nodes']:5.3f} {e['cold_slab']:7.3f} {e['cold_hot']:7.3f} |"
+            f"  {label:<14} {e['cold_nodes']:5.3f} {e['cold_slab']:7.3f} {e['worst'][0]:7.1f}"
+            f" {e['worst'][1]:7.2f} {e['cold_hot']:7.3f} |"
             f" {e['lr_own']:+7.3f}" + "".join(f" {e['lr'][k]:+9.4f}" for k in rules)
         )
     default = r["plans"][0]
@@ -498,14 +509,14 @@ def format_summary(results: list[dict], su: Setup) -> str:
         f"== summary (targets: cook time {100 * TARGET_COOK:g} %, cold spot {TARGET_COLD_K:g}"
         f" K, at most {MAX_STATES} states); default {su.default.label}",
         " (a) cold-spot error of the interpolated field (slab), K",
-        "  nodes     " + heads + "      max",
+        "  model         " + heads + "      max",
     ]
     for label, _n, _e in results[0]["fields"]:
         v = [[e for lab_, _n, e in r["fields"] if lab_ == label][0]["cold_slab"] for r in results]
         lines.append(f"  {label:<14}" + "".join(f" {x:9.3f}" for x in v) + f" {max(v):8.3f}")
     lines += [
         f" (b) LR error at {su.default.nodes} nodes, log reductions, per rule",
-        "  rule      " + heads,
+        "  rule          " + heads,
     ]
     fields = [
         [e for lab_, _n, e in r["fields"] if lab_ == f"chebyshev {su.default.nodes}"][0]
@@ -515,7 +526,7 @@ def format_summary(results: list[dict], su: Setup) -> str:
         lines.append(f"  {k:<14}" + "".join(f" {f['lr'][k]:+9.4f}" for f in fields))
     lines += [
         " (c) planned cook-time error, %; wall and CPU time of the solve / default (median)",
-        "  configuration " + heads[4:] + "   max|e|  xwall   xcpu  target",
+        "  configuration     " + heads + "   max|e|  xwall   xcpu  target",
     ]
     seen: list[Variant] = []
     for r in results:
@@ -537,9 +548,16 @@ def run(
     quick: bool,
     say: Callable[[str], None] = lambda _m: None,
     done: Callable[[dict], None] = lambda _r: None,
+    cases: tuple[tuple[float, float], ...] = (),
+    plans: tuple[Variant, ...] = (),
 ) -> list[dict]:
-    """Measure every case of the quick or full configuration."""
+    """Measure every case of the quick or full configuration (or only ``cases``; with
+    ``plans``, those configurations instead of the configured ones, on every case)."""
     cfg = QUICK if quick else FULL
+    if cases:
+        cfg = replace(cfg, cases=cases)
+    if plans:
+        cfg = replace(cfg, plans=plans, plans_extra=())
     su = demo_setup()
     results = []
     for mm, t0 in cfg.cases:
@@ -554,10 +572,17 @@ def main(argv: list[str] | None = None) -> None:
     ap = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     ap.add_argument("--quick", action="store_true", help="two cases, few configurations")
     ap.add_argument("-v", "--verbose", action="store_true", help="progress on stderr")
+    ap.add_argument("--case", action="append", default=[], help="only MM,DEGC (repeatable)")
+    ap.add_argument(
+        "--plan", action="append", default=[], help="only N/P/S/E[/cA][/gG][/mapped] (repeatable)"
+    )
     args = ap.parse_args(argv)
+    cases = tuple(tuple(float(x) for x in c.split(",")) for c in args.case)
+    plans = tuple(Variant.parse(t) for t in args.plan)
     w = time.perf_counter()
     say = (lambda m: print(m, file=sys.stderr, flush=True)) if args.verbose else (lambda _m: None)
-    results = run(args.quick, say, lambda r: print(format_case(r), end="\n\n", flush=True))
+    show = lambda r: print(format_case(r), end="\n\n", flush=True)  # noqa: E731
+    results = run(args.quick, say, show, cases, plans)  # type: ignore[arg-type]
     print(format_summary(results, demo_setup()))
     print(f"(total {time.perf_counter() - w:.0f} s)")
 

@@ -62,14 +62,17 @@ def _fields(r: dict, nodes: int) -> dict:
 def test_reference_is_converged(results):
     """The trusted run (400 cells, 0.02 s) is accurate to a tenth of each target.
 
-    Its error is estimated from the gap to 200 cells / 0.05 s by Richardson's estimate for a
+    Where the run also has 800 cells / 0.01 s (the frozen case), its error is taken as the
+    gap to that run (in the asymptotic range this overstates it by a third); elsewhere it
+    is estimated from the gap to 200 cells / 0.05 s by Richardson's estimate for a
     second-order scheme refined by 2 in space, ``gap / (2**2 - 1)`` (Roache, P. J. (1998),
     Verification and Validation in Computational Science and Engineering, Hermosa, on the
     grid convergence index).
     """
     for key, r in results.items():
-        assert r["trust"]["cold"] / 3.0 <= 0.1 * bench.TARGET_COLD_K, key
-        assert abs(r["trust"]["time"]) / 3.0 <= 0.1 * bench.TARGET_COOK, key
+        tr = r["trust_fine"] if "trust_fine" in r else {k: v / 3.0 for k, v in r["trust"].items()}
+        assert tr["cold"] <= 0.1 * bench.TARGET_COLD_K, key
+        assert abs(tr["time"]) <= 0.1 * bench.TARGET_COOK, key
 
 
 @pytest.mark.parametrize("variant", PLANS, ids=[v.label for v in PLANS])
@@ -95,6 +98,13 @@ def test_fine_rule_cook_time(results, case):
 def test_cold_spot(results, case):
     """Issue target (a): cold spot of the interpolated field at the default node count."""
     assert _fields(results[case], SETUP.default.nodes)["cold_slab"] <= bench.TARGET_COLD_K
+
+
+@pytest.mark.parametrize("case", CASES)
+def test_cold_spot_while_lethal(results, case):
+    """Issue target (a) restricted to where lethality counts: the same error while the
+    reference cold spot is at or above 40 degC, at the default node count."""
+    assert _fields(results[case], SETUP.default.nodes)["cold_hot"] <= bench.TARGET_COLD_K
 
 
 @pytest.mark.parametrize("case", CASES)
