@@ -55,7 +55,12 @@ def summary(m: dict[str, Any]) -> str:
                 f"  cell ({c['ci']}, {c['cj']}) runs {c['rule']:8s} "
                 f"margin {c['min_margin_log']:.3f} log at {c['at']['thickness_m'] * 1e3:.2f} mm, "
                 f"{c['at']['start_temp_c']:.1f} degC;"
-                f" pad {c['done_pad_ticks']} ticks; {c['samples']} reference runs"
+                f" pad {c['done_pad_ticks']} ticks; "
+                + (
+                    f"{c['samples']} reference runs"
+                    if c["samples"]
+                    else "covered by its corner node (monotonicity)"
+                )
             )
     lines.append(
         "plan s: reduced-model optimum before ticks; fix s: extension needed on the reference "
