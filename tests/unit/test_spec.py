@@ -20,7 +20,7 @@ def test_demo_spec_loads_in_si_units() -> None:
     assert s.appliance.plate_temp_c == pytest.approx(190.0)
     assert s.safety.log_reduction == 7.0 and s.safety.min_temp_c == 71.0
     assert s.safety.carry_over_s == 0.0  # no carry-over credit unless asked
-    assert s.to_dict()["appliance"]["max_flips"] == 3
+    assert s.to_dict()["appliance"]["max_flips"] == 2
 
 
 def test_imperial_units_convert() -> None:
@@ -35,8 +35,8 @@ def test_imperial_units_convert() -> None:
     ("old", "new", "field"),
     [
         ('tick = "100 ms"', 'tick = "100 mm"', "appliance.tick"),
-        ("max_flips = 3", "max_flips = 3.5", "appliance.max_flips"),
-        ("max_flips = 3", "max_flips = -1", "appliance.max_flips"),
+        ("max_flips = 2", "max_flips = 2.5", "appliance.max_flips"),
+        ("max_flips = 2", "max_flips = -1", "appliance.max_flips"),
         ('["6 mm", "9 mm", "12 mm"]', '["9 mm", "6 mm"]', "grid.thickness"),
         ('organism = "salmonella_beef_7log"', 'organism = "dragon"', "safety.organism"),
         ("water = 0.62", "water = 0.92", "food.composition"),
