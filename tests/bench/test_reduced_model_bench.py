@@ -1,6 +1,6 @@
 """The issue's accuracy targets for the reduced model, on the quick benchmark subset.
 
-Run: ``cd /work/main && python -m pytest tests/bench -m bench -q`` (a few minutes). The
+Run: ``python -m pytest tests/bench -m bench -q`` from the repository root (a few minutes). The
 measurements come from tests/bench/reduced_model.py (method in docs/reduced-model.md):
 a 6 mm chilled (4 degC) and a 10 mm frozen (-18 degC) demo patty, one flip.
 

@@ -4,7 +4,7 @@ Sources
 -------
 * Cengel, Y. A., Heat and Mass Transfer (McGraw-Hill), table of one-term approximation
   coefficients of transient conduction in a plane wall (values copied in
-  /work/shared/REFERENCES.md, section "Conduction: plane wall, one-term coefficients").
+  the project's shared references file, section "Conduction: plane wall, one-term coefficients").
 * Full Fourier series of the same problem (separation of variables, same chapter); for
   unequal coefficients on the two faces, the Sturm-Liouville eigenfunctions
   ``X = mu cos(mu x/L) + Bi0 sin(mu x/L)`` with ``tan mu = mu (Bi0 + Bi1)/(mu^2 - Bi0 Bi1)``

@@ -136,22 +136,24 @@ def _same_kinds(manifest: Mapping[str, Any], ci: int, cj: int) -> bool:
     return len(seqs) == 1
 
 
+def cell_dict(c: CellResult) -> dict[str, Any]:
+    """JSON-safe form of a cell, as the manifest stores it (times and margins to 6 digits)."""
+    return {
+        "ci": c.ci,
+        "cj": c.cj,
+        "rule": c.rule,
+        "done_pad_ticks": c.done_pad_ticks,
+        "min_margin_log": round(float(c.min_margin_log), 6),
+        "at": {"thickness_m": round(float(c.at[0]), 6), "start_temp_c": round(float(c.at[1]), 6)},
+        "samples": c.samples,
+    }
+
+
 def with_cells(manifest: Mapping[str, Any], rule: str, cells: list[CellResult]) -> dict:
     """A copy of ``manifest`` whose ``cells[rule]`` lists ``cells``."""
     out = dict(manifest)
     all_cells = dict(out.get("cells", {}))
-    all_cells[rule] = [
-        {
-            "ci": c.ci,
-            "cj": c.cj,
-            "rule": c.rule,
-            "done_pad_ticks": c.done_pad_ticks,
-            "min_margin_log": round(c.min_margin_log, 6),
-            "at": {"thickness_m": round(c.at[0], 6), "start_temp_c": round(c.at[1], 6)},
-            "samples": c.samples,
-        }
-        for c in cells
-    ]
+    all_cells[rule] = [cell_dict(c) for c in cells]
     out["cells"] = all_cells
     return out
 

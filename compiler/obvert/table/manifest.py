@@ -10,7 +10,7 @@ from obvert.plan.quantize import to_ticks
 from obvert.plan.schedule import EVENT_CODES
 from obvert.spec.model import ToleranceSpec
 from obvert.table.build import CookTable, Node
-from obvert.table.cells import CellResult
+from obvert.table.cells import cell_dict
 
 FORMAT_VERSION = 1
 
@@ -83,18 +83,6 @@ def _tolerances(tol: ToleranceSpec) -> dict[str, Any]:
     }
 
 
-def _cell_dict(c: CellResult) -> dict[str, Any]:
-    return {
-        "ci": c.ci,
-        "cj": c.cj,
-        "rule": c.rule,
-        "done_pad_ticks": c.done_pad_ticks,
-        "min_margin_log": _r(c.min_margin_log),
-        "at": {"thickness_m": _r(c.at[0]), "start_temp_c": _r(c.at[1])},
-        "samples": c.samples,
-    }
-
-
 def _price(nodes: list[dict[str, Any]]) -> dict[str, Any] | None:
     rows = [n for n in nodes if n["price_of_robustness_s"] is not None]
     if not rows:
@@ -157,5 +145,5 @@ def manifest(table: CookTable) -> dict[str, Any]:
         "tolerances": _tolerances(spec.tolerances),
     }
     if table.cells:
-        out["cells"] = {rule: [_cell_dict(c) for c in cells] for rule, cells in table.cells}
+        out["cells"] = {rule: [cell_dict(c) for c in cells] for rule, cells in table.cells}
     return out

@@ -47,6 +47,7 @@ from obvert.thermal.boundary import FaceBC, Phase
 from obvert.thermal.spectral import (
     SpectralModel,
     SpectralSettings,
+    barycentric_matrix,
     chebyshev_matrix,
     face_flux,
     local_interpolation_matrix,
@@ -77,21 +78,10 @@ def interpolation_matrix(model: SpectralModel, x_m: Array) -> Array:
         Barycentric Lagrange weights; rows at a node are unit vectors.
     """
     n = model.n
-    xi_nodes = _lobatto_xi(n)
     g = 1.0 - 2.0 * np.asarray(x_m, dtype=float) / model.thickness_m
     alpha = getattr(model, "alpha", 0.0)
     xi = np.sin(g * math.asin(alpha)) / alpha if alpha > 0.0 else g
-    w = (-1.0) ** np.arange(n)
-    w[0] *= 0.5
-    w[-1] *= 0.5
-    diff = xi[:, None] - xi_nodes[None, :]
-    exact = np.isclose(diff, 0.0, atol=1e-14)
-    diff[exact] = 1.0
-    c = w[None, :] / diff
-    p = c / c.sum(axis=1, keepdims=True)
-    rows = exact.any(axis=1)
-    p[rows] = exact[rows].astype(float)
-    return p
+    return barycentric_matrix(n, xi)
 
 
 def sensor_points(thickness_m: float, count: int) -> Array:

@@ -148,8 +148,16 @@ def interpolation_matrix(
     Barycentric Lagrange interpolation with the Chebyshev-Lobatto weights (Berrut and
     Trefethen 2004, eq. 5.4); a row at a node is the unit vector of that node.
     """
-    xi_nodes = np.cos(np.pi * np.arange(n_nodes) / (n_nodes - 1))
     xi = 1.0 - 2.0 * np.asarray(x_m, dtype=float) / thickness_m
+    return barycentric_matrix(n_nodes, xi)
+
+
+def barycentric_matrix(n_nodes: int, xi: NDArray[np.float64]) -> NDArray[np.float64]:
+    """Barycentric Lagrange weights on the Chebyshev-Lobatto points, at coordinates ``xi``.
+
+    ``xi`` is in the Chebyshev coordinate [-1, 1] (``cos(pi j / (n - 1))`` are the nodes).
+    """
+    xi_nodes = np.cos(np.pi * np.arange(n_nodes) / (n_nodes - 1))
     w = (-1.0) ** np.arange(n_nodes)
     w[0] *= 0.5
     w[-1] *= 0.5
