@@ -48,6 +48,13 @@ def summary(m: dict[str, Any]) -> str:
             f"  largest +{100 * price['max_fraction']:.1f} %, "
             f"mean +{100 * price['mean_fraction']:.1f} %"
         )
+    gap = s.get("reduced_model_gap")
+    if gap is not None:
+        lines.append(
+            "reduced model alone against the reference-calibrated plan: "
+            f"largest {100 * gap['largest_fraction']:+.3f} %, "
+            f"mean {100 * gap['mean_fraction']:+.3f} %"
+        )
     for rule, cells in sorted(m.get("cells", {}).items()):
         lines.append(f"cells, {rule} rule (smallest margin, where, pad):")
         for c in cells:
@@ -63,7 +70,8 @@ def summary(m: dict[str, Any]) -> str:
                 )
             )
     lines.append(
-        "plan s: reduced-model optimum before ticks; fix s: extension needed on the reference "
+        "plan s: optimum before ticks (reduced model, corrected against the reference unless "
+        "correction_rounds = 0); fix s: extension needed on the reference "
         "model; ff lim s / 2side s: fast-flip and two-sided-contact limits (reduced model)"
     )
     lines.append(

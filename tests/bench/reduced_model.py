@@ -1,7 +1,7 @@
 """Benchmark: the reduced spectral model and its planner against the finite-volume reference.
 
 Usage: ``nice -n 10 python tests/bench/reduced_model.py [--quick] [-v] [--case MM,DEGC]...
-[--plan N/P/S/E[/cA][/gG][/mapped]]...`` (full: 35 min on two shared cores; quick: about 3
+[--plan N/P/S/E[/cA][/gG][/rN][/mapped]]...`` (full: 35 min on two shared cores; quick: about 3
 min; ``--case`` keeps only those cases, ``--plan`` plans those configurations instead, after
 the default). Method and measured figures: docs/reduced-model.md.
 
@@ -16,8 +16,10 @@ one enthalpy each), lethality points (quadrature outputs where the log reduction
 integrated, not states; 0: at the nodes), nodes each point interpolates from (0: the
 global polynomial), Radau elements per phase; ``cA``: points clustered mid-slab
 (lab ``lethality_layout`` with alpha A); ``gG``: element grading G (default 1.35);
+``rN``: the plan corrected against the reference (200 cells / 0.05 s, what the build uses)
+for up to N rounds (obvert.table.calibrate; no suffix: the reduced model's plan alone);
 ``mapped``: the lab's mapped grid. The default is what the build uses (the spec's
-[planning] defaults, SpectralSettings' stencil).
+[planning] defaults, SpectralSettings' stencil, correction_rounds).
 
 (a) cold-spot error: max over time of |min over slab T_reduced - min over slab T_ref| on a
     fixed schedule (one flip at 45 % of the cook, done at the reference's time-to-target),
@@ -38,11 +40,13 @@ global polynomial), Radau elements per phase; ``cA``: points clustered mid-slab
 from __future__ import annotations
 
 import argparse
+import importlib.util
 import sys
 import time
 from collections.abc import Callable
 from dataclasses import dataclass, replace
 from importlib.resources import files
+from pathlib import Path
 from typing import Any
 
 import numpy as np
@@ -55,17 +59,23 @@ from obvert.plan.collocation import Grid
 from obvert.plan.ocp import PlanError, Planner, Requirement
 from obvert.plan.schedule import Event, Schedule, Surroundings, phases_for
 from obvert.spec import load_spec
+from obvert.table.calibrate import calibrate
+from obvert.table.certify import Case
 from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.reference import ReferenceResult, ReferenceSettings, simulate
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
+_REPORT_SPEC = importlib.util.spec_from_file_location(
+    "obvert_bench_reduced_model_report", Path(__file__).with_name("reduced_model_report.py")
+)
+report = importlib.util.module_from_spec(_REPORT_SPEC)
+_REPORT_SPEC.loader.exec_module(report)
+TARGET_COOK, TARGET_COLD_K, MAX_STATES = report.TARGET_COOK, report.TARGET_COLD_K, report.MAX_STATES
+
 TRUSTED = ReferenceSettings(n_cells=400, dt_max_s=0.02)
 DEFAULT_REF = ReferenceSettings()  # 200 cells, 0.05 s: what certification uses
 FINE = ReferenceSettings(n_cells=800, dt_max_s=0.01)
-TARGET_COOK = 1e-3  # relative cook-time error (issue)
-TARGET_COLD_K = 0.3  # cold-spot error, K (issue)
-MAX_STATES = 24  # enthalpy nodes allowed (issue)
 FLIP_FRACTION, SETTLE_S, HOT_C, STRIDE = 0.45, 2.0, 40.0, 2
 X_FINE = 201
 
@@ -81,6 +91,7 @@ class Variant:
     alpha: float = 0.0  # lethality layout, 0: equally spaced
     mapped: bool = False
     grading: float = Grid().grading  # ratio of consecutive element lengths
+    rounds: int = 0  # reference-calibrated correction rounds (0: the model's plan alone)
 
     @property
     def rule(self) -> str:
@@ -95,20 +106,24 @@ class Variant:
         rule = f"{self.points}/{self.stencil}" if self.points else "0"
         tail = (f" c{self.alpha:g}" if self.alpha else "") + (" mapped" if self.mapped else "")
         tail += f" g{self.grading:g}" if self.grading != Grid().grading else ""
+        tail += f" r{self.rounds}" if self.rounds else ""
         return f"{self.nodes}/{rule} e{self.elements}{tail}"
 
     @classmethod
     def parse(cls, text: str) -> Variant:
-        """From ``nodes/points/stencil/elements[/cALPHA][/gGRADING][/mapped]``."""
+        """From ``nodes/points/stencil/elements[/cALPHA][/gGRADING][/rROUNDS][/mapped]``."""
         part = text.split("/")
         if len(part) < 4 or not all(x.isdigit() for x in part[:4]):
-            raise ValueError(f"plan {text!r}: allowed nodes/points/stencil/elements[/cA][/gG]")
+            raise ValueError(f"plan {text!r}: allowed nodes/points/stencil/elements[/cA][/gG][/rN]")
         v = cls(*(int(x) for x in part[:4]))
         for x in part[4:]:
-            key = {"c": "alpha", "g": "grading", "m": "mapped"}.get(x[:1], "")
+            key = {"c": "alpha", "g": "grading", "r": "rounds", "m": "mapped"}.get(x[:1], "")
             if not key or (key == "mapped") != (x == "mapped"):
-                raise ValueError(f"plan {text!r}: {x!r} is not cA, gG or mapped")
-            v = replace(v, **{key: True if key == "mapped" else float(x[1:])})
+                raise ValueError(f"plan {text!r}: {x!r} is not cA, gG, rN or mapped")
+            value = {"mapped": True, "rounds": int(x[1:]) if x[1:].isdigit() else -1}.get(key)
+            v = replace(v, **{key: float(x[1:]) if value is None else value})
+            if v.rounds < 0:
+                raise ValueError(f"plan {text!r}: {x!r}: rounds must be a whole number")
         return v
 
 
@@ -118,7 +133,8 @@ def _v(nodes: int, points: int, stencil: int = 4, **kw: Any) -> Variant:
 
 RULES = (_v(16, 0), _v(16, 11), _v(16, 21), _v(16, 31), _v(16, 41), _v(16, 21, 0))
 RULES += (_v(16, 41, 0), _v(16, 21, alpha=0.9), _v(16, 31, alpha=0.9))
-PLANS = (_v(16, 21), _v(16, 0), _v(16, 31), _v(16, 41), _v(12, 21), _v(24, 21))
+PLANS = (_v(16, 21, rounds=3), _v(16, 21), _v(12, 21, rounds=3), _v(16, 0), _v(16, 31))
+PLANS += (_v(16, 41), _v(12, 21), _v(24, 21))
 PLANS += (_v(16, 21, 0), _v(16, 21, alpha=0.9), _v(24, 41))
 PLANS_EXTRA = (_v(8, 21), _v(20, 21), _v(16, 11), _v(16, 41, 0), _v(12, 41))
 PLANS_EXTRA += (_v(16, 31, alpha=0.9), _v(16, 21, alpha=0.95), _v(16, 21, elements=16))
@@ -144,7 +160,8 @@ CASES_ALL = tuple((mm, t0) for mm in (6.0, 10.0, 15.0, 25.0) for t0 in (4.0, -18
 FULL = Config(
     CASES_ALL, (8, 12, 16, 20, 24), RULES, PLANS, PLANS_EXTRA, CASES_QUICK, True, (10, -18)
 )
-QUICK_RULES, QUICK_PLANS = (_v(16, 0), _v(16, 21), _v(16, 41)), (_v(16, 21), _v(16, 41))
+QUICK_RULES = (_v(16, 0), _v(16, 21), _v(16, 41))
+QUICK_PLANS = (_v(16, 21, rounds=3), _v(16, 21), _v(16, 41))
 QUICK = Config(CASES_QUICK, (16, 24), QUICK_RULES, QUICK_PLANS, (), (), False, (10, -18))
 
 
@@ -177,6 +194,7 @@ def demo_setup() -> Setup:
         pl.lethality_points,
         SpectralSettings().lethality_stencil,
         pl.elements_per_phase,
+        rounds=pl.correction_rounds,
     )
     return Setup(food_table(spec.food), org.model(), env, req, a.min_event_gap_s, default)
 
@@ -343,7 +361,7 @@ def plan(su: Setup, mm: float, t0: float, v: Variant) -> tuple[SpectralModel, di
     planner = Planner(
         model, su.env, su.requirement, su.min_gap_s, Grid(v.elements, grading=v.grading)
     )
-    row = {"v": v, "flip": np.nan, "done": np.nan, "note": ""}
+    row = {"v": v, "flip": np.nan, "done": np.nan, "model_done": np.nan, "note": ""}
     try:
         d0 = planner.solve((), t0).dwell_s[0]
         seeds: tuple[np.ndarray, ...] = (np.array([0.5 * d0, 0.5 * d0 - su.env.flip_air_s]),)
@@ -352,6 +370,12 @@ def plan(su: Setup, mm: float, t0: float, v: Variant) -> tuple[SpectralModel, di
     w, c = time.perf_counter(), time.process_time()
     try:
         res = planner.solve(("flip",), t0, seeds)
+        row.update(model_done=res.cook_time_s)
+        if v.rounds:
+            case = Case(su.table, mm * 1e-3, t0, su.env, su.lethality, su.requirement, DEFAULT_REF)
+            cal = calibrate(planner, ("flip",), t0, [case], res, v.rounds)
+            res = cal.result
+            row["note"] = cal.note[:60] if not cal.note.startswith("converged") else ""
         row.update(flip=res.schedule.events[0].at_s, done=res.cook_time_s)
     except PlanError as exc:
         row["note"] = str(exc).split(": ", 1)[-1][:60]
@@ -434,116 +458,6 @@ def run_case(su: Setup, mm: float, t0: float, cfg: Config, say: Callable[[str], 
     return out
 
 
-def _f(v: float, fmt: str) -> str:
-    return format(v, fmt) if np.isfinite(v) else "fail".rjust(len(format(1.0, fmt)))
-
-
-def _pct(a: float, b: float, fmt: str = "+8.3f") -> str:
-    return _f(100.0 * (a / b - 1.0), fmt)
-
-
-def format_case(r: dict) -> str:
-    """Tables of one case."""
-    sch, tr = r["schedule"], r["trust"]
-    lines = [
-        f"== {r['mm']:g} mm, start {r['t0']:g} degC: fixed schedule flip {sch.events[0].at_s:.2f}"
-        f" s, done {sch.done_s:.2f} s; trusted reference min LR at done {r['lr_ref']:.4f}"
-        f" (case {r['wall']:.0f} s)",
-        f"   reference 200 cells/0.05 s vs 400/0.02: cold spot {tr['cold']:.4f} K, "
-        f"time-to-target {100 * tr['time']:+.4f} %",
-    ]
-    if "trust_fine" in r:
-        tf = r["trust_fine"]
-        lines.append(
-            f"   reference 400/0.02 vs 800/0.01: cold spot {tf['cold']:.4f} K, "
-            f"time-to-target {100 * tf['time']:+.4f} %"
-        )
-    rules = list(r["fields"][0][2]["lr"])
-    lines += [
-        " (a) cold-spot error, K | (b) error of the smallest LR at removal, log reductions",
-        "  model          nodes    slab    at s  Tref C     hot |     own"
-        + "".join(f" {k:>9}" for k in rules),
-    ]
-    for label, _n, e in r["fields"]:
-        lines.append(
-            f"  {label:<14} {e['cold_nodes']:5.3f} {e['cold_slab']:7.3f} {e['worst'][0]:7.1f}"
-            f" {e['worst'][1]:7.2f} {e['cold_hot']:7.3f} |"
-            f" {e['lr_own']:+7.3f}" + "".join(f" {e['lr'][k]:+9.4f}" for k in rules)
-        )
-    default = r["plans"][0]
-    lines += [
-        " (c) plan with one flip; err: planned done vs the reference's exact done for that flip;",
-        "     own: planned vs CVODES on the same model and rule; fine: CVODES done with the",
-        "     LR checked on 801 points (global polynomial), vs the reference",
-        "  configuration        flip s    done s   exact s    err %   own %  fine %"
-        "   wall s  xwall    cpu s   xcpu",
-    ]
-    for p in r["plans"]:
-        lines.append(
-            f"  {p['v'].label:<18} {_f(p['flip'], '8.2f')} {_f(p['done'], '9.3f')}"
-            f" {_f(p['exact'], '9.3f')} {_pct(p['done'], p['exact'])}"
-            f" {_pct(p['done'], p['own'], '+7.3f')} {_pct(p['fine'], p['exact'], '+7.3f')}"
-            f" {p['wall']:8.1f} {p['wall'] / default['wall']:6.2f} {p['cpu']:8.1f}"
-            f" {p['cpu'] / default['cpu']:6.2f}" + (f"  ({p['note']})" if p["note"] else "")
-        )
-    for name, (err, wall) in r["redo"].items():
-        lines.append(
-            f"  done for the default plan's flip from {name}: {100 * err:+.4f} %, {wall:.1f} s"
-        )
-    return "\n".join(lines)
-
-
-def _plan_err(r: dict, v: Variant) -> tuple[float, float, float]:
-    """(err %, wall ratio, CPU ratio) of variant ``v`` in case ``r`` (NaN if absent)."""
-    hit = [p for p in r["plans"] if p["v"] == v]
-    if not hit:
-        return np.nan, np.nan, np.nan
-    p, d = hit[0], r["plans"][0]
-    return 100.0 * (p["done"] / p["exact"] - 1.0), p["wall"] / d["wall"], p["cpu"] / d["cpu"]
-
-
-def format_summary(results: list[dict], su: Setup) -> str:
-    """Key figures over all cases: (a) per node count, (b) per rule, (c) per configuration."""
-    heads = "".join(f" {r['mm']:>3g}mm{r['t0']:+4g}" for r in results)
-    lines = [
-        f"== summary (targets: cook time {100 * TARGET_COOK:g} %, cold spot {TARGET_COLD_K:g}"
-        f" K, at most {MAX_STATES} states); default {su.default.label}",
-        " (a) cold-spot error of the interpolated field (slab), K",
-        "  model         " + heads + "      max",
-    ]
-    for label, _n, _e in results[0]["fields"]:
-        v = [[e for lab_, _n, e in r["fields"] if lab_ == label][0]["cold_slab"] for r in results]
-        lines.append(f"  {label:<14}" + "".join(f" {x:9.3f}" for x in v) + f" {max(v):8.3f}")
-    lines += [
-        f" (b) LR error at {su.default.nodes} nodes, log reductions, per rule",
-        "  rule          " + heads,
-    ]
-    fields = [
-        [e for lab_, _n, e in r["fields"] if lab_ == f"chebyshev {su.default.nodes}"][0]
-        for r in results
-    ]
-    for k in results[0]["fields"][0][2]["lr"]:
-        lines.append(f"  {k:<14}" + "".join(f" {f['lr'][k]:+9.4f}" for f in fields))
-    lines += [
-        " (c) planned cook-time error, %; wall and CPU time of the solve / default (median)",
-        "  configuration     " + heads + "   max|e|  xwall   xcpu  target",
-    ]
-    seen: list[Variant] = []
-    for r in results:
-        seen += [p["v"] for p in r["plans"] if p["v"] not in seen]
-    for v in seen:
-        e, wr, cr = np.array([_plan_err(r, v) for r in results]).T
-        ok = v.nodes <= MAX_STATES and np.all(np.abs(e[np.isfinite(e)]) <= 100 * TARGET_COOK)
-        ok_s = "met" if ok and np.isfinite(e).sum() == len(results) else "-" if not ok else "n/a"
-        lines.append(
-            f"  {v.label:<18}"
-            + "".join(f" {_f(x, '+9.3f') if x == x else '      n/a'}" for x in e)
-            + f" {np.nanmax(np.abs(e)):8.3f} {np.nanmedian(wr):6.2f}"
-            + f" {np.nanmedian(cr):6.2f}  {ok_s}"
-        )
-    return "\n".join(lines)
-
-
 def run(
     quick: bool,
     say: Callable[[str], None] = lambda _m: None,
@@ -581,9 +495,9 @@ def main(argv: list[str] | None = None) -> None:
     plans = tuple(Variant.parse(t) for t in args.plan)
     w = time.perf_counter()
     say = (lambda m: print(m, file=sys.stderr, flush=True)) if args.verbose else (lambda _m: None)
-    show = lambda r: print(format_case(r), end="\n\n", flush=True)  # noqa: E731
+    show = lambda r: print(report.format_case(r), end="\n\n", flush=True)  # noqa: E731
     results = run(args.quick, say, show, cases, plans)  # type: ignore[arg-type]
-    print(format_summary(results, demo_setup()))
+    print(report.format_summary(results, demo_setup()))
     print(f"(total {time.perf_counter() - w:.0f} s)")
 
 

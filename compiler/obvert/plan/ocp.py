@@ -10,6 +10,7 @@ gap apart.
 
 from __future__ import annotations
 
+from collections.abc import Sequence
 from dataclasses import dataclass
 
 import casadi as ca
@@ -57,6 +58,14 @@ class PlanResult:
         IPOPT's return status.
     dwell_s : tuple of float
         Time on the plate before each event, s.
+    member_log_reduction : tuple of float
+        Per scenario, the smallest log reduction over the lethality points at removal on
+        the reduced model (uncorrected), log10.
+    member_temp_c : tuple of float
+        Per scenario, the coldest lethality point at removal on the reduced model, degC.
+    bias : tuple of (float, float)
+        Per scenario, the target correction the solve used: (log10 of the factor on the
+        log reduction, kelvin on the removal temperature); zeros when uncorrected.
     """
 
     schedule: Schedule
@@ -64,6 +73,9 @@ class PlanResult:
     min_log_reduction: float
     solver_status: str
     dwell_s: tuple[float, ...]
+    member_log_reduction: tuple[float, ...] = ()
+    member_temp_c: tuple[float, ...] = ()
+    bias: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True)
@@ -171,14 +183,27 @@ class Planner:
                 t_rem = np.array(model.lethality_temps(model.temperatures(x))).ravel()
         return stages, lr_after, lr, t_rem
 
-    def _meets(self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray) -> bool:
+    def _meets(
+        self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray, bias: np.ndarray
+    ) -> bool:
         for k in range(len(self.members)):
             _, _, lr, t_rem = self._simulate(k, kinds, start_temp_c, dwell)
-            if lr.min() < self.req.log_reduction:
+            if np.log10(lr.min()) < np.log10(self.req.log_reduction) + bias[k, 0]:
                 return False
-            if self.req.min_temp_c is not None and t_rem.min() < self.req.min_temp_c:
+            floor = self.req.min_temp_c
+            if floor is not None and t_rem.min() < floor + bias[k, 1]:
                 return False
         return True
+
+    def _bias(self, bias: Sequence[tuple[float, float]] | None) -> np.ndarray:
+        """Target corrections as an array (scenarios, 2); zeros when None."""
+        n = len(self.members)
+        if bias is None:
+            return np.zeros((n, 2))
+        out = np.asarray(bias, dtype=float)
+        if out.shape != (n, 2) or not np.all(np.isfinite(out)):
+            raise ValueError(f"bias = {bias!r}: allowed one finite (log10, K) pair per scenario")
+        return out
 
     # -- public ----------------------------------------------------------------------
     def lower_bounds(self, kinds: tuple[str, ...]) -> np.ndarray:
@@ -189,8 +214,11 @@ class Planner:
             lb.append(max(self.min_gap_s - air, 0.0))
         return np.array(lb)
 
-    def feasible_guess(self, kinds: tuple[str, ...], start_temp_c: float) -> np.ndarray:
+    def feasible_guess(
+        self, kinds: tuple[str, ...], start_temp_c: float, bias: np.ndarray | None = None
+    ) -> np.ndarray:
         """Equal dwells, scaled by bisection until the reduced model meets the target, s."""
+        bias = self._bias(None) if bias is None else bias
         lb = self.lower_bounds(kinds)
         n = lb.size
 
@@ -198,13 +226,13 @@ class Planner:
             return np.maximum(np.full(n, total / n), lb)
 
         lo, hi = 0.0, 60.0
-        while not self._meets(kinds, start_temp_c, dw(hi)):
+        while not self._meets(kinds, start_temp_c, dw(hi), bias):
             lo, hi = hi, hi * 2.0
             if hi > 7200.0:
                 raise PlanError(f"sequence {kinds}: target not reached within 2 h of cooking")
         while hi - lo > 0.02 * hi:
             mid = 0.5 * (lo + hi)
-            lo, hi = (lo, mid) if self._meets(kinds, start_temp_c, dw(mid)) else (mid, hi)
+            lo, hi = (lo, mid) if self._meets(kinds, start_temp_c, dw(mid), bias) else (mid, hi)
         return dw(hi)
 
     def solve(
@@ -212,32 +240,61 @@ class Planner:
         kinds: tuple[str, ...],
         start_temp_c: float,
         seeds: tuple[np.ndarray, ...] = (),
+        bias: Sequence[tuple[float, float]] | None = None,
+        warm: bool = False,
     ) -> PlanResult:
         """Minimum-time schedule for the event sequence ``kinds`` (``done`` implied).
 
         IPOPT starts from the feasible equal-dwell guess and from each seed (dwell vectors,
         s, e.g. the solution with one flip fewer with its last dwell split); the fastest
         converged solution wins. A start that fails is skipped; if all fail, PlanError.
+
+        ``bias`` corrects the targets per scenario (see :mod:`obvert.table.calibrate`):
+        the model's log reduction must reach the target times ``10**bias[k][0]`` and its
+        removal temperature the floor plus ``bias[k][1]`` kelvin. With ``warm`` the seeds
+        are taken to be near the optimum: IPOPT starts from them alone, and from the
+        equal-dwell guess only if they all fail.
         """
         if kinds not in self._nlps:
             self._nlps[kinds] = Transcription(self, kinds)
         tr = self._nlps[kinds]
-        guess = self.feasible_guess(kinds, start_temp_c)
+        b = self._bias(bias)
         lb = self.lower_bounds(kinds)
-        ub = np.full(lb.size, max(guess.sum(), lb.max() + 1.0))
-        best: PlanResult | None = None
         errors: list[str] = []
-        for start in (guess, *seeds):
-            start = np.clip(np.asarray(start, dtype=float), lb, ub)
+        if warm and seeds:
+            # a near-optimal seed (a correction round): skip the cold start unless it fails
+            ub = np.full(lb.size, max(1.5 * float(np.sum(seeds[0])), lb.max() + 1.0))
+            best = self._best(tr, start_temp_c, seeds, lb, ub, b, errors)
+            if best is not None:
+                return best
+        guess = self.feasible_guess(kinds, start_temp_c, b)
+        ub = np.full(lb.size, max(guess.sum(), lb.max() + 1.0))
+        best = self._best(tr, start_temp_c, (guess, *seeds), lb, ub, b, errors)
+        if best is None:
+            raise PlanError("; ".join(errors))
+        return best
+
+    def _best(
+        self,
+        tr: Transcription,
+        start_temp_c: float,
+        starts: Sequence[np.ndarray],
+        lb: np.ndarray,
+        ub: np.ndarray,
+        bias: np.ndarray,
+        errors: list[str],
+    ) -> PlanResult | None:
+        """Fastest converged solve over ``starts``; failures are appended to ``errors``."""
+        best: PlanResult | None = None
+        for start in starts:
+            x0 = np.clip(np.asarray(start, dtype=float), lb, ub)
             try:
-                res = self._solve_from(tr, start_temp_c, start, lb, ub)
+                res = self._solve_from(tr, start_temp_c, x0, lb, ub, bias)
             except PlanError as exc:
                 errors.append(str(exc))
                 continue
             if best is None or res.cook_time_s < best.cook_time_s - 1e-6:
                 best = res
-        if best is None:
-            raise PlanError("; ".join(errors))
         return best
 
     def _solve_from(
@@ -247,6 +304,7 @@ class Planner:
         start: np.ndarray,
         lb: np.ndarray,
         ub: np.ndarray,
+        bias: np.ndarray,
     ) -> PlanResult:
         kinds = tr.kinds
         frac = self.grid.fractions()
@@ -255,8 +313,8 @@ class Planner:
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
             stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
-            scale = np.maximum(lr_after[-1], self.req.log_reduction)
-            p += [mem.model.initial_state(t0)[: mem.model.n], scale]
+            scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias[k, 0])
+            p += [mem.model.initial_state(t0)[: mem.model.n], scale, bias[k]]
             h0 = [start[ph.dwell_index] * frac for ph in tr.phases if ph.dwell_index is not None]
             w0 += [*h0, *[v / scale for v in lr_after], *stages]
             lbx += [np.zeros(lay.n_h), np.full(lay.n_lr, 1e-300), np.full(lay.n_z, -0.05)]
@@ -280,9 +338,18 @@ class Planner:
                 f"(largest constraint violation {viol:.3g})"
             )
         dwell = w[: lb.size] * DWELL_SCALE_S
-        lr = np.array(tr.lr_of(w, np.concatenate(p))).ravel()
+        lr, t_rem = (np.array(v).ravel() for v in tr.outcome_of(w, np.concatenate(p)))
         schedule = self.schedule_of(kinds, dwell)
-        return PlanResult(schedule, schedule.done_s, float(lr.min()), status, tuple(dwell))
+        return PlanResult(
+            schedule,
+            schedule.done_s,
+            float(lr.min()),
+            status,
+            tuple(float(v) for v in dwell),
+            tuple(float(v) for v in lr),
+            tuple(float(v) for v in t_rem),
+            tuple((float(a), float(b)) for a, b in bias),
+        )
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:
         """Event times from the dwell before each event, s."""

@@ -294,6 +294,7 @@ def _planning(sec: _Section | None) -> PlanningSpec:
         elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
         reference_cells=sec.integer("reference_cells", 40, 2000, 200),
         reference_dt_s=sec.number("reference_dt_s", 0.005, 1.0, 0.05),
+        correction_rounds=sec.integer("correction_rounds", 0, 8, 3),
     )
     sec.done()
     return out

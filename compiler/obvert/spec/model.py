@@ -179,6 +179,9 @@ class PlanningSpec:
         Finite-volume cells of the reference model, -.
     reference_dt_s : float
         Largest time step of the reference model, s.
+    correction_rounds : int
+        Largest number of rounds of the reference-calibrated correction of each plan
+        (:mod:`obvert.table.calibrate`), -; 0: plans are the reduced model's alone.
     """
 
     flip_cost_s: float
@@ -187,6 +190,7 @@ class PlanningSpec:
     elements_per_phase: int
     reference_cells: int
     reference_dt_s: float
+    correction_rounds: int = 3
 
 
 @dataclass(frozen=True)

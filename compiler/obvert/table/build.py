@@ -14,10 +14,11 @@ from obvert.food.lethality import LethalityModel
 from obvert.food.table import PropertyTable
 from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
-from obvert.plan.ocp import Member, PlanError, Planner, Requirement
+from obvert.plan.ocp import Member, PlanError, Planner, PlanResult, Requirement
 from obvert.plan.quantize import quantize, to_ticks
 from obvert.plan.schedule import Schedule, Surroundings
 from obvert.spec.model import Spec
+from obvert.table.calibrate import Calibrated, calibrate
 from obvert.table.cells import CellResult
 from obvert.table.certify import Case, CertificationError, certify
 from obvert.table.scenarios import nominal, scenarios
@@ -46,12 +47,16 @@ class Candidate:
         Solver status, or why it failed.
     sequence : tuple of str
         The events before done that were planned.
+    corrected_cook_time_s : float | None
+        Cook time after the reference-calibrated correction, s (None: not corrected, as
+        for candidates far from the best).
     """
 
     flips: int
     planned_cook_time_s: float | None
     note: str
     sequence: tuple[str, ...] = ()
+    corrected_cook_time_s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -85,6 +90,11 @@ class Node:
     nominal_planned_s : float or None
         Cook time the same event sequence would need at nominal conditions (no
         tolerances), s; None when no tolerances are declared (the plan is nominal).
+    model_planned_s : float or None
+        Cook time of the chosen sequence on the reduced model before the
+        reference-calibrated correction, s (None: no correction asked).
+    calibration_note : str
+        How the correction ended (rounds, the model-reference gap).
     """
 
     i: int
@@ -100,6 +110,8 @@ class Node:
     candidates: tuple[Candidate, ...]
     bounds_s: tuple[tuple[str, float | None], ...] = ()
     nominal_planned_s: float | None = None
+    model_planned_s: float | None = None
+    calibration_note: str = ""
 
 
 @dataclass(frozen=True)
@@ -239,7 +251,10 @@ def _row(spec: Spec, i: int, say: Progress | None) -> list[Node]:
         t_worst = t0 + scens[0].start_offset_k
         node = replace(node, bounds_s=tuple(sorted(limits.solve(t_worst).items())))
         if nominal_planner is not None:
-            node = replace(node, nominal_planned_s=_nominal(nominal_planner, node, t0))
+            nom_case = Case(nom.table, thick, t0, nom.env, leth, req, ref)
+            node = replace(
+                node, nominal_planned_s=_nominal(spec, nominal_planner, node, t0, nom_case)
+            )
         out.append(node)
     return out
 
@@ -251,13 +266,19 @@ def _model(spec: Spec, table: PropertyTable, thickness_m: float) -> SpectralMode
     return SpectralModel(table, thickness_m, lethality_of(spec), settings)
 
 
-def _nominal(planner: Planner, node: Node, t0: float) -> float | None:
-    """Nominal-conditions optimum of the node's chosen event sequence, s (None: failed)."""
+def _nominal(spec: Spec, planner: Planner, node: Node, t0: float, case: Case) -> float | None:
+    """Nominal-conditions optimum of the node's chosen event sequence, s (None: failed).
+
+    Corrected against the reference like the robust plan, so that the price of robustness
+    compares like with like.
+    """
     kinds = tuple(e.kind for e in node.schedule.events[:-1] if e.kind != "platen_open")
     try:
-        return planner.solve(kinds, t0).cook_time_s
+        res = planner.solve(kinds, t0)
     except PlanError:
         return None
+    rounds = spec.planning.correction_rounds
+    return calibrate(planner, kinds, t0, [case], res, rounds).result.cook_time_s
 
 
 def _node(
@@ -271,7 +292,7 @@ def _node(
     cell = f"node (thickness {at[0] * 1e3:g} mm, start {at[1]:g} degC)"
     t_plan = cases[0].start_temp_c
     cands: list[Candidate] = []
-    best: tuple[float, Schedule] | None = None
+    solved: dict[tuple[str, ...], PlanResult] = {}
     prev: tuple[float, ...] | None = None
     for seq in sequences(spec):
         flips = seq.count("flip")
@@ -285,15 +306,14 @@ def _node(
             continue
         if not closing:
             prev = res.dwell_s
+        solved[seq] = res
         cands.append(Candidate(flips, res.cook_time_s, res.solver_status, seq))
-        cost = res.cook_time_s + flips * spec.planning.flip_cost_s
-        if best is None or cost < best[0] - 1e-9:
-            best = (cost, res.schedule)
-    if best is None:
+    if not solved:
         raise BuildError(
             f"{cell}: no flip count could be planned: " + "; ".join(c.note for c in cands)
         )
-    plan = best[1]
+    choice, cands = _choose(spec, planner, cases, solved, cands)
+    plan = choice.result.schedule
     a = spec.appliance
     ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
     try:
@@ -315,7 +335,50 @@ def _node(
         margin_log=cert.margin_log,
         min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
         candidates=tuple(cands),
+        model_planned_s=choice.model_cook_time_s if spec.planning.correction_rounds else None,
+        calibration_note=choice.note,
     )
+
+
+#: Candidates whose uncorrected cost is within this fraction of the best are corrected too
+#: (the correction moves a cook time by a few tenths of a per cent).
+CORRECTION_WINDOW = 0.01
+
+
+def _choose(
+    spec: Spec,
+    planner: Planner,
+    cases: list[Case],
+    solved: dict[tuple[str, ...], PlanResult],
+    cands: list[Candidate],
+) -> tuple[Calibrated, list[Candidate]]:
+    """The event sequence of least cost after the reference-calibrated correction.
+
+    Cost is cook time plus ``flip_cost`` per flip. The best sequence on the reduced model
+    and every other within :data:`CORRECTION_WINDOW` of it are corrected, and the least
+    corrected cost wins (ties: fewer events, then the order tried).
+    """
+
+    def cost(seq: tuple[str, ...], t: float) -> float:
+        return t + seq.count("flip") * spec.planning.flip_cost_s
+
+    low = min(cost(q, r.cook_time_s) for q, r in solved.items())
+    rounds = spec.planning.correction_rounds
+    best: tuple[float, Calibrated] | None = None
+    out = list(cands)
+    t_plan = cases[0].start_temp_c
+    for seq, res in solved.items():
+        if cost(seq, res.cook_time_s) > low * (1.0 + CORRECTION_WINDOW) + 1e-9:
+            continue
+        cal = calibrate(planner, seq, t_plan, cases, res, rounds)
+        k = next(i for i, c in enumerate(out) if c.sequence == seq)
+        if rounds:
+            out[k] = replace(out[k], corrected_cook_time_s=cal.result.cook_time_s)
+        c = cost(seq, cal.result.cook_time_s)
+        if best is None or c < best[0] - 1e-9:
+            best = (c, cal)
+    assert best is not None  # the uncorrected best is always within the window
+    return best[1], out
 
 
 def _split_last(dwell: tuple[float, ...], flip_air_s: float) -> tuple[float, ...]:

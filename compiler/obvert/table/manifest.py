@@ -48,6 +48,8 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "cook_time_s": _r(node.schedule.done_s),
         "cook_ticks": to_ticks(node.schedule.done_s, tick_s),
         "planned_cook_time_s": _r(node.planned_cook_time_s),
+        "model_planned_s": None if node.model_planned_s is None else _r(node.model_planned_s),
+        "calibration_note": node.calibration_note,
         "correction_s": _r(node.correction_s),
         "min_log_reduction": _r(node.min_log_reduction),
         "margin_log": _r(node.margin_log),
@@ -63,6 +65,9 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
                 "planned_cook_time_s": None
                 if c.planned_cook_time_s is None
                 else _r(c.planned_cook_time_s),
+                "corrected_cook_time_s": None
+                if c.corrected_cook_time_s is None
+                else _r(c.corrected_cook_time_s),
                 "note": c.note,
                 "sequence": list(c.sequence),
             }
@@ -95,6 +100,15 @@ def _price(nodes: list[dict[str, Any]]) -> dict[str, Any] | None:
             sum(n["price_of_robustness_s"] / n["nominal_planned_s"] for n in rows) / len(rows)
         ),
     }
+
+
+def _model_gap(nodes: list[dict[str, Any]]) -> dict[str, Any] | None:
+    """How far the reduced model alone planned from the corrected plan, over all nodes."""
+    rows = [n for n in nodes if n["model_planned_s"] is not None]
+    if not rows:
+        return None
+    gaps = [n["model_planned_s"] / n["planned_cook_time_s"] - 1.0 for n in rows]
+    return {"largest_fraction": _r(max(gaps, key=abs)), "mean_fraction": _r(sum(gaps) / len(gaps))}
 
 
 def manifest(table: CookTable) -> dict[str, Any]:
@@ -141,6 +155,7 @@ def manifest(table: CookTable) -> dict[str, Any]:
             "nodes_corrected": sum(1 for n in nodes if n["correction_s"] > 0.0),
             "longest_cook_time_s": max(n["cook_time_s"] for n in nodes),
             "price_of_robustness": _price(nodes),
+            "reduced_model_gap": _model_gap(nodes),
         },
         "tolerances": _tolerances(spec.tolerances),
     }
