@@ -132,3 +132,12 @@ def test_zero_rounds_is_the_model_plan() -> None:
     case = Case(TABLE, 6e-3, 4.0, ENV, LETH, req, CALIBRATION_REF)
     cal = calibrate(planner, (), 4.0, [case], plan, 0)
     assert cal.result is plan and cal.rounds == 0
+
+
+def test_modifier_must_match_scenarios_and_dwells() -> None:
+    """A modifier built for another event sequence is refused with both shapes named."""
+    from obvert.plan.modifier import Modifier
+
+    planner = _planner(6.0, Requirement(7.0))
+    with pytest.raises(ValueError, match="1 scenarios and 2 dwells: allowed 1 scenarios and 1"):
+        planner.solve((), 4.0, modifier=Modifier.zero(1, 2))

@@ -89,3 +89,23 @@ def test_clamshell_needs_a_platen_and_refuses_flips() -> None:
     griddle = _demo().replace('tick = "100 ms"', 'tick = "100 ms"\nplaten_temperature = "200 degC"')
     with pytest.raises(SpecError, match="no platen"):
         loads_spec(griddle)
+
+
+def test_conductivity_model_default_choice_and_errors() -> None:
+    """[food] conductivity_model: "levy_ice" by default, "parallel" on request; anything else,
+    or the key beside measured properties, is an error naming the field and the choices."""
+    assert loads_spec(_demo()).food.conductivity_model == "levy_ice"
+    text = _demo().replace('freezing_point = "-1.7 degC"', 'freezing_point = "-1.7 degC"\n{}')
+    par = loads_spec(text.format('conductivity_model = "parallel"'))
+    assert par.food.conductivity_model == "parallel"
+    with pytest.raises(SpecError, match=r"food\.conductivity_model.*'series'.*levy_ice"):
+        loads_spec(text.format('conductivity_model = "series"'))
+
+
+def test_planning_correction_rounds() -> None:
+    """[planning] correction_rounds: 3 by default, 0 turns the correction off, 0-8 allowed."""
+    assert loads_spec(_demo()).planning.correction_rounds == 3
+    text = _demo().replace('flip_cost = "3 s"', 'flip_cost = "3 s"\ncorrection_rounds = {}')
+    assert loads_spec(text.format(0)).planning.correction_rounds == 0
+    with pytest.raises(SpecError, match=r"planning\.correction_rounds.*9.*0 to 8"):
+        loads_spec(text.format(9))

@@ -10,8 +10,12 @@ properties of foods):
 
 * density by volume additivity, ``1/rho = sum(x_i/rho_i)``;
 * specific heat mass-weighted, ``cp = sum(x_i*cp_i)``;
-* conductivity volume-fraction weighted (parallel model), ``k = sum(v_i*k_i)`` with
-  ``v_i = x_i*rho/rho_i``.
+* conductivity: by default (``conductivity_model="levy_ice"``) volume-fraction weighted
+  (parallel model) over the non-ice components, then Levy's model to add ice (Carson et al.
+  2016; Levy's model fitted measured food conductivities best in Fricke and Becker 2001;
+  see :mod:`obvert.food.conductivity`); with ``"parallel"`` the parallel model over every
+  component, ``k = sum(v_i*k_i)`` with ``v_i = x_i*rho/rho_i`` (an upper bound, about 30 %
+  high for frozen lean beef). Above the freezing point the two are the same.
 
 Freezing: the initial freezing point is given or estimated for meats as
 ``T_f = 271.18 + 1.47*x_w`` (K). Below it the ice mass fraction follows Tchigeov's equation
@@ -41,6 +45,7 @@ from dataclasses import dataclass, fields
 import numpy as np
 from numpy.typing import ArrayLike, NDArray
 
+from obvert.food.conductivity import ice_step_mixture
 from obvert.food.table import TABLE_MAX_C, TABLE_MIN_C, PropertyTable
 
 #: Latent heat of fusion of water at 0 degC, J/kg (ASHRAE Handbook, Refrigeration, chapter on
@@ -96,6 +101,9 @@ _CP_WATER_ABOVE_0 = (4.1762, -9.0864e-5, 5.4731e-6)
 _CP_WATER_BELOW_0 = (4.0817, -5.3062e-3, 9.9516e-4)
 
 _SOLIDS = ("protein", "fat", "carbohydrate", "fibre", "ash")
+
+#: Allowed values of ``conductivity_model``.
+CONDUCTIVITY_MODELS = ("parallel", "levy_ice")
 
 
 @dataclass(frozen=True)
@@ -225,7 +233,10 @@ def ice_fraction(
 
 
 def properties_at(
-    comp: Composition, temp_c: ArrayLike, freezing_point_c: float | None = None
+    comp: Composition,
+    temp_c: ArrayLike,
+    freezing_point_c: float | None = None,
+    conductivity_model: str = "levy_ice",
 ) -> PointProperties:
     """Evaluate the Choi-Okos mixture at ``temp_c`` (degC).
 
@@ -237,7 +248,13 @@ def properties_at(
         Temperatures, degC.
     freezing_point_c : float, optional
         Initial freezing point, degC; estimated with :func:`initial_freezing_point_c` if None.
+    conductivity_model : {"parallel", "levy_ice"}
+        Conductivity mixing rule (module docstring); "levy_ice" by default.
     """
+    if not isinstance(conductivity_model, str) or conductivity_model not in CONDUCTIVITY_MODELS:
+        raise ValueError(
+            f"conductivity_model = {conductivity_model!r}: allowed one of {CONDUCTIVITY_MODELS}"
+        )
     t = np.atleast_1d(np.asarray(temp_c, dtype=float))
     t_f = initial_freezing_point_c(comp) if freezing_point_c is None else freezing_point_c
     x = comp.normalised()
@@ -248,7 +265,12 @@ def properties_at(
     rho_i = {name: _poly(_RHO[name], t) for name in mass}
     specific_volume = sum(mass[n] / rho_i[n] for n in mass)
     rho = 1.0 / specific_volume
-    k = sum(mass[n] * rho / rho_i[n] * _poly(_K[n], t) for n in mass)
+    vol = {n: mass[n] * rho / rho_i[n] for n in mass}
+    k_i = {n: _poly(_K[n], t) for n in mass}
+    if conductivity_model == "parallel":
+        k = sum(vol[n] * k_i[n] for n in mass)
+    else:
+        k = ice_step_mixture(k_i, vol)
     cp_water = np.where(t < 0.0, _poly(_CP_WATER_BELOW_0, t), _poly(_CP_WATER_ABOVE_0, t))
     cp_kj = mass["water"] * cp_water + sum(mass[n] * _poly(_CP[n], t) for n in (*_SOLIDS, "ice"))
     cp_sensible = 1e3 * cp_kj
@@ -315,6 +337,7 @@ def composition_table(
     step_c: float = 0.05,
     lo_c: float = TABLE_MIN_C,
     hi_c: float = TABLE_MAX_C,
+    conductivity_model: str = "levy_ice",
 ) -> PropertyTable:
     """Build a :class:`PropertyTable` from a composition with the Choi-Okos model.
 
@@ -332,6 +355,8 @@ def composition_table(
     lo_c, hi_c : float
         Temperature range, degC. The grid starts at ``lo_c`` and ends at the first node at or
         above ``hi_c``. Above 150 degC the correlations are extrapolated.
+    conductivity_model : {"parallel", "levy_ice"}
+        Passed to :func:`properties_at`.
 
     Returns
     -------
@@ -349,7 +374,7 @@ def composition_table(
     else:
         t_f = float(freezing_point_c)
     t = anchored_grid(lo_c, hi_c, step_c, t_f)
-    p = properties_at(comp, t, t_f)
+    p = properties_at(comp, t, t_f, conductivity_model)
     for label, values in (
         ("conductivity", p.conductivity),
         ("density", p.density),

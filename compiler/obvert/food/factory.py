@@ -12,7 +12,10 @@ def food_table(food: FoodSpec) -> PropertyTable:
     """Build the :class:`PropertyTable` that every heat model of this food reads."""
     if food.composition is not None:
         return composition_table(
-            food.composition, food.name, freezing_point_c=food.freezing_point_c
+            food.composition,
+            food.name,
+            freezing_point_c=food.freezing_point_c,
+            conductivity_model=food.conductivity_model,
         )
     m = food.measured
     if m is None:

@@ -84,10 +84,14 @@ class _MemberEquations:
         self.x0 = ca.MX.sym(f"x0_{k}", n)
         #: Scale of the log reduction at each lethality point (a parameter of the NLP).
         self.scale = ca.MX.sym(f"lr_scale_{k}", m)
-        #: Correction of the targets (a parameter): log10 of the factor by which the model's
-        #: log reduction exceeds the reference's, and the kelvin by which its removal
-        #: temperature does (both 0 without a reference-calibrated correction).
-        self.bias = ca.MX.sym(f"bias_{k}", 2)
+        #: Affine correction of the targets (parameters, see obvert.plan.modifier): offset
+        #: (log10, K), slope per second of each dwell, and the dwells it is taken at.
+        nd = len(kinds) + 1
+        self.mod = ca.MX.sym(f"mod_{k}", 2 + 3 * nd)
+        off, at = self.mod[:2], self.mod[2 + 2 * nd :]
+        slope = ca.reshape(self.mod[2 : 2 + 2 * nd], nd, 2).T  # rows: log10, K
+        #: The shift (log10, K) as a function of the dwell variables.
+        self.shift = off + ca.mtimes(slope, dwell - at)
         phases = phase_specs(kinds, mem.env, req.rest_s)
         x, flipped, lr_food = self.x0, False, None
         t_abs: ca.MX | float = 0.0
@@ -150,14 +154,14 @@ class Transcription:
             _MemberEquations(planner, k, mem, kinds, dwell) for k, mem in enumerate(planner.members)
         ]
         res = [r for me in members for r in me.res]
-        ineq = [me.log_lr - math.log10(req.log_reduction) - me.bias[0] for me in members]
+        ineq = [me.log_lr - math.log10(req.log_reduction) - me.shift[0] for me in members]
         if req.min_temp_c is not None:
-            ineq += [(me.t_removal - req.min_temp_c - me.bias[1]) / 10.0 for me in members]
+            ineq += [(me.t_removal - req.min_temp_c - me.shift[1]) / 10.0 for me in members]
         g = ca.vertcat(*res, *ineq)
         self.n_res = int(ca.vertcat(*res).shape[0])
         self.layouts = [me.layout for me in members]
         w = ca.vertcat(dwell_scaled, *[v for me in members for v in me.w])
-        p = ca.vertcat(*[ca.vertcat(me.x0, me.scale, me.bias) for me in members])
+        p = ca.vertcat(*[ca.vertcat(me.x0, me.scale, me.mod) for me in members])
         #: Per scenario, the smallest log reduction over the points and the coldest point at
         #: removal on the reduced model (uncorrected), as functions of the solution.
         self.outcome_of = ca.Function(

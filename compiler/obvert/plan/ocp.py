@@ -18,6 +18,7 @@ import numpy as np
 
 from obvert.plan._nlp import DWELL_SCALE_S, PlanError, Transcription, phase_specs
 from obvert.plan.collocation import Grid, PhaseBlock
+from obvert.plan.modifier import Modifier
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
@@ -64,8 +65,9 @@ class PlanResult:
     member_temp_c : tuple of float
         Per scenario, the coldest lethality point at removal on the reduced model, degC.
     bias : tuple of (float, float)
-        Per scenario, the target correction the solve used: (log10 of the factor on the
-        log reduction, kelvin on the removal temperature); zeros when uncorrected.
+        Per scenario, the target correction at the solution (:class:`Modifier` shift):
+        (log10 of the factor on the log reduction, kelvin on the removal temperature);
+        zeros when uncorrected.
     """
 
     schedule: Schedule
@@ -184,8 +186,9 @@ class Planner:
         return stages, lr_after, lr, t_rem
 
     def _meets(
-        self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray, bias: np.ndarray
+        self, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray, mod: Modifier
     ) -> bool:
+        bias = mod.shift(dwell)
         for k in range(len(self.members)):
             _, _, lr, t_rem = self._simulate(k, kinds, start_temp_c, dwell)
             if np.log10(lr.min()) < np.log10(self.req.log_reduction) + bias[k, 0]:
@@ -195,15 +198,17 @@ class Planner:
                 return False
         return True
 
-    def _bias(self, bias: Sequence[tuple[float, float]] | None) -> np.ndarray:
-        """Target corrections as an array (scenarios, 2); zeros when None."""
-        n = len(self.members)
-        if bias is None:
-            return np.zeros((n, 2))
-        out = np.asarray(bias, dtype=float)
-        if out.shape != (n, 2) or not np.all(np.isfinite(out)):
-            raise ValueError(f"bias = {bias!r}: allowed one finite (log10, K) pair per scenario")
-        return out
+    def _modifier(self, kinds: tuple[str, ...], mod: Modifier | None) -> Modifier:
+        """``mod``, or no correction; checked against the scenarios and dwells."""
+        n, nd = len(self.members), len(kinds) + 1
+        if mod is None:
+            return Modifier.zero(n, nd)
+        if np.shape(mod.offset) != (n, 2) or np.size(mod.at_dwell_s) != nd:
+            raise ValueError(
+                f"modifier for {np.shape(mod.offset)[0]} scenarios and "
+                f"{np.size(mod.at_dwell_s)} dwells: allowed {n} scenarios and {nd} dwells"
+            )
+        return mod
 
     # -- public ----------------------------------------------------------------------
     def lower_bounds(self, kinds: tuple[str, ...]) -> np.ndarray:
@@ -215,10 +220,10 @@ class Planner:
         return np.array(lb)
 
     def feasible_guess(
-        self, kinds: tuple[str, ...], start_temp_c: float, bias: np.ndarray | None = None
+        self, kinds: tuple[str, ...], start_temp_c: float, mod: Modifier | None = None
     ) -> np.ndarray:
         """Equal dwells, scaled by bisection until the reduced model meets the target, s."""
-        bias = self._bias(None) if bias is None else bias
+        mod = self._modifier(kinds, mod)
         lb = self.lower_bounds(kinds)
         n = lb.size
 
@@ -226,13 +231,13 @@ class Planner:
             return np.maximum(np.full(n, total / n), lb)
 
         lo, hi = 0.0, 60.0
-        while not self._meets(kinds, start_temp_c, dw(hi), bias):
+        while not self._meets(kinds, start_temp_c, dw(hi), mod):
             lo, hi = hi, hi * 2.0
             if hi > 7200.0:
                 raise PlanError(f"sequence {kinds}: target not reached within 2 h of cooking")
         while hi - lo > 0.02 * hi:
             mid = 0.5 * (lo + hi)
-            lo, hi = (lo, mid) if self._meets(kinds, start_temp_c, dw(mid), bias) else (mid, hi)
+            lo, hi = (lo, mid) if self._meets(kinds, start_temp_c, dw(mid), mod) else (mid, hi)
         return dw(hi)
 
     def solve(
@@ -240,7 +245,7 @@ class Planner:
         kinds: tuple[str, ...],
         start_temp_c: float,
         seeds: tuple[np.ndarray, ...] = (),
-        bias: Sequence[tuple[float, float]] | None = None,
+        modifier: Modifier | None = None,
         warm: bool = False,
     ) -> PlanResult:
         """Minimum-time schedule for the event sequence ``kinds`` (``done`` implied).
@@ -249,16 +254,17 @@ class Planner:
         s, e.g. the solution with one flip fewer with its last dwell split); the fastest
         converged solution wins. A start that fails is skipped; if all fail, PlanError.
 
-        ``bias`` corrects the targets per scenario (see :mod:`obvert.table.calibrate`):
-        the model's log reduction must reach the target times ``10**bias[k][0]`` and its
-        removal temperature the floor plus ``bias[k][1]`` kelvin. With ``warm`` the seeds
+        ``modifier`` corrects the targets per scenario (:mod:`obvert.plan.modifier`, fitted
+        by :mod:`obvert.table.calibrate`): the model's log reduction must reach the target
+        times ``10**shift[k, 0]`` and its removal temperature the floor plus ``shift[k, 1]``
+        kelvin, the shift being affine in the dwells. With ``warm`` the seeds
         are taken to be near the optimum: IPOPT starts from them alone, and from the
         equal-dwell guess only if they all fail.
         """
         if kinds not in self._nlps:
             self._nlps[kinds] = Transcription(self, kinds)
         tr = self._nlps[kinds]
-        b = self._bias(bias)
+        b = self._modifier(kinds, modifier)
         lb = self.lower_bounds(kinds)
         errors: list[str] = []
         if warm and seeds:
@@ -281,7 +287,7 @@ class Planner:
         starts: Sequence[np.ndarray],
         lb: np.ndarray,
         ub: np.ndarray,
-        bias: np.ndarray,
+        mod: Modifier,
         errors: list[str],
     ) -> PlanResult | None:
         """Fastest converged solve over ``starts``; failures are appended to ``errors``."""
@@ -289,7 +295,7 @@ class Planner:
         for start in starts:
             x0 = np.clip(np.asarray(start, dtype=float), lb, ub)
             try:
-                res = self._solve_from(tr, start_temp_c, x0, lb, ub, bias)
+                res = self._solve_from(tr, start_temp_c, x0, lb, ub, mod)
             except PlanError as exc:
                 errors.append(str(exc))
                 continue
@@ -304,17 +310,18 @@ class Planner:
         start: np.ndarray,
         lb: np.ndarray,
         ub: np.ndarray,
-        bias: np.ndarray,
+        mod: Modifier,
     ) -> PlanResult:
         kinds = tr.kinds
+        bias0 = mod.shift(start)
         frac = self.grid.fractions()
         w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
         p = []
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
             stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
-            scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias[k, 0])
-            p += [mem.model.initial_state(t0)[: mem.model.n], scale, bias[k]]
+            scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
+            p += [mem.model.initial_state(t0)[: mem.model.n], scale, mod.parameters(k)]
             h0 = [start[ph.dwell_index] * frac for ph in tr.phases if ph.dwell_index is not None]
             w0 += [*h0, *[v / scale for v in lr_after], *stages]
             lbx += [np.zeros(lay.n_h), np.full(lay.n_lr, 1e-300), np.full(lay.n_z, -0.05)]
@@ -348,7 +355,7 @@ class Planner:
             tuple(float(v) for v in dwell),
             tuple(float(v) for v in lr),
             tuple(float(v) for v in t_rem),
-            tuple((float(a), float(b)) for a, b in bias),
+            tuple((float(a), float(b)) for a, b in mod.shift(dwell)),
         )
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:

@@ -12,7 +12,7 @@ import sys
 from pathlib import Path
 from typing import Any
 
-from obvert.food.choi_okos import Composition
+from obvert.food.choi_okos import CONDUCTIVITY_MODELS, Composition
 from obvert.food.presets import PRESETS
 from obvert.spec.errors import SpecError
 from obvert.spec.errors import range_check as _range_check
@@ -131,6 +131,16 @@ def _food(sec: _Section) -> FoodSpec:
     fp = sec.qty("freezing_point", "temperature", None)
     if fp is not None:
         _range_check(sec._p("freezing_point"), fp, -10.0, 0.0, "degC")
+    k_model = sec.raw("conductivity_model", "levy_ice")
+    if k_model not in CONDUCTIVITY_MODELS:
+        allowed = f"one of {list(CONDUCTIVITY_MODELS)}"
+        raise SpecError(sec._p("conductivity_model"), k_model, allowed)
+    if meas_sec is not None and "conductivity_model" in sec.data:
+        raise SpecError(
+            sec._p("conductivity_model"),
+            k_model,
+            "only with [food.composition] (measured properties give the conductivity itself)",
+        )
     comp = measured = None
     if comp_sec is not None:
         fr = {k: comp_sec.number(k, 0.0, 1.0, 0.0) for k in ("carbohydrate", "fibre", "ash")}
@@ -156,7 +166,13 @@ def _food(sec: _Section) -> FoodSpec:
         )
         meas_sec.done()
     sec.done()
-    return FoodSpec(name=name, composition=comp, freezing_point_c=fp, measured=measured)
+    return FoodSpec(
+        name=name,
+        composition=comp,
+        freezing_point_c=fp,
+        measured=measured,
+        conductivity_model=str(k_model),
+    )
 
 
 def _axis(sec: _Section, key: str, kind: str, lo: float, hi: float, unit: str) -> tuple[float, ...]:

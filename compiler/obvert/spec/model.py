@@ -49,12 +49,16 @@ class FoodSpec:
         Initial freezing point for the composition model, degC (None: from water content).
     measured : MeasuredProperties | None
         Measured properties, or None when ``composition`` is given.
+    conductivity_model : str
+        Conductivity mixing rule of the composition model (``"levy_ice"``, the default, or
+        ``"parallel"``; see :mod:`obvert.food.conductivity`).
     """
 
     name: str
     composition: Composition | None
     freezing_point_c: float | None
     measured: MeasuredProperties | None
+    conductivity_model: str = "levy_ice"
 
 
 @dataclass(frozen=True)
