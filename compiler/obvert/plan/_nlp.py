@@ -174,7 +174,31 @@ class Transcription:
         )
         nlp = {"x": w, "p": p, "f": ca.sum1(dwell_scaled), "g": g}
         self.solver = ca.nlpsol("plan", "ipopt", nlp, _options(planner.hessian))
+        self._nlp, self._hessian = nlp, planner.hessian
         self.n_g = int(g.shape[0])
+
+    @property
+    def warm_solver(self) -> ca.Function:
+        """The same NLP, for a start at a previous solution with its multipliers.
+
+        Built on first use; IPOPT's warm-start initialisation, small initial barrier.
+        """
+        if not hasattr(self, "_warm"):
+            opts = {**_options(self._hessian), **WARM_OPTIONS}
+            self._warm = ca.nlpsol("plan_warm", "ipopt", self._nlp, opts)
+        return self._warm
+
+
+#: IPOPT options of a warm start (primal and dual point of a nearby solved problem).
+WARM_OPTIONS: dict[str, object] = {
+    "ipopt.warm_start_init_point": "yes",
+    "ipopt.mu_init": 1e-6,
+    "ipopt.warm_start_bound_push": 1e-9,
+    "ipopt.warm_start_bound_frac": 1e-9,
+    "ipopt.warm_start_slack_bound_push": 1e-9,
+    "ipopt.warm_start_slack_bound_frac": 1e-9,
+    "ipopt.warm_start_mult_bound_push": 1e-9,
+}
 
 
 def _options(hessian: str) -> dict[str, object]:

@@ -143,6 +143,9 @@ class Planner:
         self._blocks: dict[tuple[int, FaceBC, FaceBC], PhaseBlock] = {}
         self._traj: dict[tuple[int, FaceBC, FaceBC], ca.Function] = {}
         self._nlps: dict[tuple[str, ...], Transcription] = {}
+        #: Last solution per (sequence, start): dwell (s), NLP primal point, LR scales, and
+        #: the bound and constraint multipliers.
+        self._last: dict[tuple[tuple[str, ...], float], tuple] = {}
 
     def block(self, k: int, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
         """Collocation block of scenario ``k`` for a pair of face conditions (cached)."""
@@ -315,27 +318,41 @@ class Planner:
         kinds = tr.kinds
         bias0 = mod.shift(start)
         frac = self.grid.fractions()
+        # the last solution of this sequence and start, if the start is its optimum: IPOPT
+        # then starts from that whole primal point (states included), not a re-simulation
+        last = self._last.get((kinds, start_temp_c))
+        warm = last is not None and np.array_equal(last[0], start)
         w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
-        p = []
+        p, scales = [], []
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
-            stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
-            scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
+            if warm:
+                scale = last[2][k]
+            else:
+                stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
+                scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
+                free = [ph.dwell_index for ph in tr.phases if ph.dwell_index is not None]
+                w0 += [*[start[i] * frac for i in free], *[v / scale for v in lr_after], *stages]
+            scales.append(scale)
             p += [mem.model.initial_state(t0)[: mem.model.n], scale, mod.parameters(k)]
-            h0 = [start[ph.dwell_index] * frac for ph in tr.phases if ph.dwell_index is not None]
-            w0 += [*h0, *[v / scale for v in lr_after], *stages]
             lbx += [np.zeros(lay.n_h), np.full(lay.n_lr, 1e-300), np.full(lay.n_z, -0.05)]
             ubx += [np.full(lay.n_h, ub.max()), np.full(lay.n_lr, np.inf), np.full(lay.n_z, 1.05)]
         n_ineq = tr.n_g - tr.n_res
-        sol = tr.solver(
-            x0=np.concatenate(w0),
-            p=np.concatenate(p),
-            lbx=np.concatenate(lbx),
-            ubx=np.concatenate(ubx),
-            lbg=np.zeros(tr.n_g),
-            ubg=np.concatenate([np.zeros(tr.n_res), np.full(n_ineq, np.inf)]),
-        )
-        status = str(tr.solver.stats()["return_status"])
+        args = {
+            "p": np.concatenate(p),
+            "lbx": np.concatenate(lbx),
+            "ubx": np.concatenate(ubx),
+            "lbg": np.zeros(tr.n_g),
+            "ubg": np.concatenate([np.zeros(tr.n_res), np.full(n_ineq, np.inf)]),
+        }
+        if warm:
+            solver = tr.warm_solver
+            x0 = np.clip(last[1], args["lbx"], args["ubx"])
+            sol = solver(x0=x0, lam_x0=last[3], lam_g0=last[4], **args)
+        else:
+            solver = tr.solver
+            sol = solver(x0=np.concatenate(w0), **args)
+        status = str(solver.stats()["return_status"])
         w = np.array(sol["x"]).ravel()
         g = np.array(sol["g"]).ravel()
         viol = max(np.abs(g[: tr.n_res]).max(), -min(g[tr.n_res :].min(), 0.0))
@@ -345,6 +362,8 @@ class Planner:
                 f"(largest constraint violation {viol:.3g})"
             )
         dwell = w[: lb.size] * DWELL_SCALE_S
+        duals = (np.array(sol["lam_x"]).ravel(), np.array(sol["lam_g"]).ravel())
+        self._last[(kinds, start_temp_c)] = (dwell.copy(), w.copy(), scales, *duals)
         lr, t_rem = (np.array(v).ravel() for v in tr.outcome_of(w, np.concatenate(p)))
         schedule = self.schedule_of(kinds, dwell)
         return PlanResult(
