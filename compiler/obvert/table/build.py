@@ -10,6 +10,8 @@ from collections.abc import Callable
 from concurrent.futures import ProcessPoolExecutor, as_completed
 from dataclasses import dataclass, replace
 
+import numpy as np
+
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import PropertyTable
 from obvert.plan.bounds import BoundPlanners
@@ -95,6 +97,8 @@ class Node:
         reference-calibrated correction, s (None: no correction asked).
     calibration_note : str
         How the correction ended (rounds, the model-reference gap).
+    planned_dwell_s : tuple of float
+        Time on the plate before each event of the chosen plan, before ticks, s.
     """
 
     i: int
@@ -112,6 +116,7 @@ class Node:
     nominal_planned_s: float | None = None
     model_planned_s: float | None = None
     calibration_note: str = ""
+    planned_dwell_s: tuple[float, ...] = ()
 
 
 @dataclass(frozen=True)
@@ -273,8 +278,8 @@ def _nominal(spec: Spec, planner: Planner, node: Node, t0: float, case: Case) ->
     compares like with like.
     """
     kinds = tuple(e.kind for e in node.schedule.events[:-1] if e.kind != "platen_open")
-    try:
-        res = planner.solve(kinds, t0)
+    try:  # the robust plan also meets the nominal target: a start near the nominal optimum
+        res = planner.solve(kinds, t0, (np.array(node.planned_dwell_s),))
     except PlanError:
         return None
     rounds = spec.planning.correction_rounds
@@ -337,6 +342,7 @@ def _node(
         candidates=tuple(cands),
         model_planned_s=choice.model_cook_time_s if spec.planning.correction_rounds else None,
         calibration_note=choice.note,
+        planned_dwell_s=choice.result.dwell_s,
     )
 
 
