@@ -143,9 +143,9 @@ class Planner:
         self._blocks: dict[tuple[int, FaceBC, FaceBC], PhaseBlock] = {}
         self._traj: dict[tuple[int, FaceBC, FaceBC], ca.Function] = {}
         self._nlps: dict[tuple[str, ...], Transcription] = {}
-        #: Last solution per (sequence, start): dwell (s), NLP primal point, LR scales, and
-        #: the bound and constraint multipliers.
-        self._last: dict[tuple[tuple[str, ...], float], tuple] = {}
+        #: Every solution by (sequence, start, its dwells in s): NLP primal point, LR scales,
+        #: and the bound and constraint multipliers (a start at those dwells reuses them).
+        self._solutions: dict[tuple[tuple[str, ...], float, tuple[float, ...]], tuple] = {}
 
     def block(self, k: int, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
         """Collocation block of scenario ``k`` for a pair of face conditions (cached)."""
@@ -318,16 +318,16 @@ class Planner:
         kinds = tr.kinds
         bias0 = mod.shift(start)
         frac = self.grid.fractions()
-        # the last solution of this sequence and start, if the start is its optimum: IPOPT
-        # then starts from that whole primal point (states included), not a re-simulation
-        last = self._last.get((kinds, start_temp_c))
-        warm = last is not None and np.array_equal(last[0], start)
+        # a start at an earlier solution of this sequence and start temperature: IPOPT then
+        # starts from that whole primal-dual point (states included), not a re-simulation
+        last = self._solutions.get((kinds, start_temp_c, tuple(float(v) for v in start)))
+        warm = last is not None
         w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
         p, scales = [], []
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
             if warm:
-                scale = last[2][k]
+                scale = last[1][k]
             else:
                 stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
                 scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
@@ -347,8 +347,8 @@ class Planner:
         }
         if warm:
             solver = tr.warm_solver
-            x0 = np.clip(last[1], args["lbx"], args["ubx"])
-            sol = solver(x0=x0, lam_x0=last[3], lam_g0=last[4], **args)
+            x0 = np.clip(last[0], args["lbx"], args["ubx"])
+            sol = solver(x0=x0, lam_x0=last[2], lam_g0=last[3], **args)
         else:
             solver = tr.solver
             sol = solver(x0=np.concatenate(w0), **args)
@@ -363,7 +363,8 @@ class Planner:
             )
         dwell = w[: lb.size] * DWELL_SCALE_S
         duals = (np.array(sol["lam_x"]).ravel(), np.array(sol["lam_g"]).ravel())
-        self._last[(kinds, start_temp_c)] = (dwell.copy(), w.copy(), scales, *duals)
+        key = (kinds, start_temp_c, tuple(float(v) for v in dwell))
+        self._solutions[key] = (w.copy(), scales, *duals)
         lr, t_rem = (np.array(v).ravel() for v in tr.outcome_of(w, np.concatenate(p)))
         schedule = self.schedule_of(kinds, dwell)
         return PlanResult(

@@ -79,11 +79,6 @@ def reference_outcome(cases: Sequence[Case], schedule: Schedule) -> np.ndarray:
     return out
 
 
-def _gap(model: np.ndarray, ref: np.ndarray) -> np.ndarray:
-    """(log10 LR_model - log10 LR_ref, T_model - T_ref) per scenario."""
-    return np.column_stack([np.log10(model[:, 0]) - np.log10(ref[:, 0]), model[:, 1] - ref[:, 1]])
-
-
 def gap(plan: PlanResult, cases: Sequence[Case]) -> np.ndarray:
     """Per scenario, (log10 LR_model - log10 LR_ref, T_model - T_ref) at ``plan``.
 
@@ -95,8 +90,9 @@ def gap(plan: PlanResult, cases: Sequence[Case]) -> np.ndarray:
         raise ValueError(
             f"cases: {len(cases)} given, the plan has {len(plan.member_log_reduction)} scenarios"
         )
-    model = np.column_stack([plan.member_log_reduction, plan.member_temp_c])
-    return _gap(model, reference_outcome(cases, plan.schedule))
+    ref = reference_outcome(cases, plan.schedule)
+    lr_gap = np.log10(plan.member_log_reduction) - np.log10(ref[:, 0])
+    return np.column_stack([lr_gap, np.asarray(plan.member_temp_c) - ref[:, 1]])
 
 
 def calibrate(
