@@ -57,13 +57,12 @@ from obvert.food.presets import preset
 from obvert.food.table import PropertyTable
 from obvert.plan.collocation import Grid
 from obvert.plan.ocp import PlanError, Planner, Requirement
-from obvert.plan.schedule import Event, Schedule, Surroundings, phases_for
+from obvert.plan.schedule import Surroundings
 from obvert.spec import load_spec
 from obvert.table.calibrate import calibrate
 from obvert.table.certify import Case
 from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.boundary import FaceBC
-from obvert.thermal.reference import ReferenceResult, ReferenceSettings, simulate
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
 _REPORT_SPEC = importlib.util.spec_from_file_location(
@@ -72,12 +71,21 @@ _REPORT_SPEC = importlib.util.spec_from_file_location(
 report = importlib.util.module_from_spec(_REPORT_SPEC)
 _REPORT_SPEC.loader.exec_module(report)
 TARGET_COOK, TARGET_COLD_K, MAX_STATES = report.TARGET_COOK, report.TARGET_COLD_K, report.MAX_STATES
+_FIELDS_SPEC = importlib.util.spec_from_file_location(
+    "obvert_bench_reduced_model_fields", Path(__file__).with_name("reduced_model_fields.py")
+)
+fields = importlib.util.module_from_spec(_FIELDS_SPEC)
+sys.modules[_FIELDS_SPEC.name] = fields  # dataclasses look their module up here
+_FIELDS_SPEC.loader.exec_module(fields)
 
-TRUSTED = ReferenceSettings(n_cells=400, dt_max_s=0.02)
-DEFAULT_REF = ReferenceSettings()  # 200 cells, 0.05 s: what certification uses
-FINE = ReferenceSettings(n_cells=800, dt_max_s=0.01)
-FLIP_FRACTION, SETTLE_S, HOT_C, STRIDE = 0.45, 2.0, 40.0, 2
-X_FINE = 201
+_REF_SPEC = importlib.util.spec_from_file_location(
+    "obvert_bench_reduced_model_reference", Path(__file__).with_name("reduced_model_reference.py")
+)
+refs = importlib.util.module_from_spec(_REF_SPEC)
+_REF_SPEC.loader.exec_module(refs)
+TRUSTED, DEFAULT_REF, FINE = refs.TRUSTED, refs.DEFAULT_REF, refs.FINE
+one_flip, reference, exact_done = refs.one_flip, refs.reference, refs.exact_done
+fixed_schedule = refs.fixed_schedule
 
 
 @dataclass(frozen=True)
@@ -210,132 +218,6 @@ def make_model(su: Setup, mm: float, v: Variant) -> SpectralModel:
     return SpectralModel(*args)
 
 
-def one_flip(flip_s: float, done_s: float) -> Schedule:
-    """Schedule with one flip and removal, s."""
-    return Schedule((Event("flip", flip_s), Event("done", done_s)))
-
-
-def reference(su: Setup, mm: float, t0: float, sch: Schedule, rs: ReferenceSettings):
-    """Reference run of a schedule."""
-    return simulate(su.table, mm * 1e-3, t0, phases_for(sch, su.env), su.lethality, rs)
-
-
-def crossing(res: ReferenceResult, target: float) -> float | None:
-    """First time in the last phase at which the min LR reaches ``target``, s (interpolated)."""
-    sel = res.phase_index == res.phase_index[-1]
-    t, lr = res.t_s[sel], res.log_reduction[sel].min(axis=1)
-    i = int(np.argmax(lr >= target))
-    if lr[i] < target or i == 0:
-        return None
-    return float(np.interp(target, lr[i - 1 : i + 1], t[i - 1 : i + 1]))
-
-
-def exact_done(
-    su: Setup, mm: float, t0: float, flip_s: float, guess_s: float, rs: ReferenceSettings = TRUSTED
-) -> float:
-    """Reference's minimum done time for a flip at ``flip_s``, s."""
-    horizon = max(guess_s * 1.04 + 2.0, flip_s + su.env.flip_air_s + 5.0)
-    while True:
-        done = crossing(reference(su, mm, t0, one_flip(flip_s, horizon), rs), 7.0)
-        if done is not None:
-            return done
-        horizon *= 1.4
-
-
-def fixed_schedule(su: Setup, mm: float, t0: float) -> tuple[Schedule, ReferenceResult]:
-    """Flip at 45 % of the cook, done at the reference's time-to-target (secant, 200 cells)."""
-    guess = 1.1e6 * (mm * 1e-3) ** 2 * (2.0 if t0 < su.table.freezing_point_c else 1.0) + 30.0
-
-    def gap(total: float) -> float:
-        return exact_done(su, mm, t0, FLIP_FRACTION * total, 1.5 * total, DEFAULT_REF) - total
-
-    a, ga = guess, gap(guess)
-    b = a + ga
-    gb = gap(b)
-    while abs(gb) > 1e-3:
-        a, ga, b = b, gb, b - gb * (b - a) / (gb - ga)
-        gb = gap(b)
-    sch = one_flip(FLIP_FRACTION * b, b)
-    return sch, reference(su, mm, t0, sch, DEFAULT_REF)
-
-
-@dataclass(frozen=True)
-class History:
-    """Reduced-model outputs at the reference's (strided) rows, t = 0 first."""
-
-    t_s: np.ndarray
-    temps: np.ndarray  # node temperatures, degC, lab frame, (rows, n)
-    mirrored: np.ndarray
-    cold_slab: np.ndarray
-    lr_own: float  # smallest of the model's own LR states at removal
-
-
-def reduced_history(
-    model: SpectralModel, su: Setup, t0: float, sch: Schedule, ref: ReferenceResult
-) -> History:
-    """Simulate ``sch`` on the reduced model (CVODES) at the reference's rows."""
-    n = model.n
-    interp = lab.interpolation_matrix(model, np.linspace(0.0, model.thickness_m, X_FINE))
-    x, start, rows_t, temps, mir = model.initial_state(t0), 0.0, [[0.0]], [], [[False]]
-    temps.append(np.full((1, n), t0))
-    for k, ph in enumerate(phases_for(sch, su.env)):
-        if ph.flip_before:
-            x = np.array(model.flip(x)).ravel()
-        t_rows = ref.t_s[ref.phase_index == k]
-        t_rows = t_rows[t_rows > start][::-1][::STRIDE][::-1]  # keep the phase end
-        traj = np.array(
-            model.trajectory(ph.face0, ph.face1, (t_rows - start) / ph.duration_s)(x, ph.duration_s)
-        )
-        temps.append(np.array(model.temp_of(traj[:n].T.reshape(1, -1))).reshape(-1, n))
-        rows_t.append(t_rows)
-        mir.append(np.full(t_rows.size, bool(ref.mirrored[ref.phase_index == k][-1])))
-        x, start = traj[:, -1], start + ph.duration_s
-    t_nodes = np.vstack(temps)
-    return History(
-        np.concatenate(rows_t),
-        t_nodes,
-        np.concatenate(mir),
-        (t_nodes @ interp.T).min(axis=1),
-        float(x[n:].min()),
-    )
-
-
-def rule_lr(h: History, model: SpectralModel, v: Variant, lm: LethalityModel) -> float:
-    """Smallest LR at removal at the points of rule ``v`` (trapezoid on the rows), log10."""
-    if v.points:
-        x = lab.lethality_layout(model.thickness_m, v.points, v.alpha)
-        tp = h.temps @ lab.point_matrix(model, x, v.stencil).T
-    else:
-        tp = h.temps.copy()
-    tp[h.mirrored] = tp[h.mirrored, ::-1]  # food frame (layouts are symmetric)
-    rate = lm.rate(tp)
-    return float(np.sum(0.5 * (rate[1:] + rate[:-1]) * np.diff(h.t_s)[:, None], axis=0).min())
-
-
-def field_errors(h: History, model: SpectralModel, ref: ReferenceResult, su: Setup, cfg) -> dict:
-    """(a) and (b) of one reduced run against the trusted reference."""
-    t = h.t_s[1:]
-    cold_ref = np.interp(t, ref.t_s, ref.temp_c.min(axis=1))
-    keep = np.ones(t.size, dtype=bool)
-    flip = ref.t_s[np.argmax(ref.phase_index == 1)]
-    for e in (0.0, flip, flip + su.env.flip_air_s):
-        keep &= ~((t > e - 1e-9) & (t < e + SETTLE_S))
-    hot = keep & (cold_ref >= HOT_C)
-    lr_ref = float(ref.log_reduction[-1].min())
-    slab = np.abs(h.cold_slab[1:] - cold_ref)
-    worst = int(np.argmax(np.where(keep, slab, -1.0)))
-    lr = {v.rule: rule_lr(h, model, v, su.lethality) - lr_ref for v in cfg.rules}
-    lr["slab"] = rule_lr(h, model, _v(model.n, X_FINE, 0), su.lethality) - lr_ref
-    return {
-        "cold_nodes": float(np.abs(h.temps[1:].min(axis=1) - cold_ref)[keep].max()),
-        "cold_slab": float(slab[keep].max()),
-        "cold_hot": float(slab[hot].max()) if hot.any() else np.nan,
-        "worst": (float(t[worst]), float(cold_ref[worst])),
-        "lr_own": h.lr_own - lr_ref,
-        "lr": lr,
-    }
-
-
 def field_models(su: Setup, mm: float, cfg: Config) -> list[tuple[str, SpectralModel]]:
     """Models for (a)/(b): stock at every node count, lab variants if asked."""
     d = su.default
@@ -420,35 +302,22 @@ def redo_done(su: Setup, mm: float, t0: float, cfg: Config, top: dict) -> dict:
     return out
 
 
-def ref_gap(coarse: ReferenceResult, fine: ReferenceResult, sch: Schedule, su: Setup) -> dict:
-    """Discretisation gap of the reference: cold spot (K) and time-to-target (relative)."""
-    t = fine.t_s
-    keep = np.ones(t.size, dtype=bool)
-    for e in (0.0, sch.events[0].at_s, sch.events[0].at_s + su.env.flip_air_s):
-        keep &= ~((t > e - 1e-9) & (t < e + SETTLE_S))
-    cold = np.interp(t, coarse.t_s, coarse.temp_c.min(axis=1)) - fine.temp_c.min(axis=1)
-
-    def ttt(res: ReferenceResult) -> float:
-        lr = res.log_reduction.min(axis=1)
-        slope = (lr[-1] - lr[-11]) / (res.t_s[-1] - res.t_s[-11])
-        return float(res.t_s[-1] - (lr[-1] - 7.0) / slope)
-
-    return {"cold": float(np.abs(cold[keep]).max()), "time": ttt(coarse) / ttt(fine) - 1.0}
-
-
 def run_case(su: Setup, mm: float, t0: float, cfg: Config, say: Callable[[str], None]) -> dict:
     """All measurements of one thickness and start."""
     w = time.perf_counter()
     sch, ref_default = fixed_schedule(su, mm, t0)
     ref = reference(su, mm, t0, sch, TRUSTED)
     out = {"mm": mm, "t0": t0, "schedule": sch, "lr_ref": float(ref.log_reduction[-1].min())}
-    out["trust"] = ref_gap(ref_default, ref, sch, su)
+    out["trust"] = fields.ref_gap(ref_default, ref, sch, su.env.flip_air_s)
     if cfg.fine_check == (mm, t0):
-        out["trust_fine"] = ref_gap(ref, reference(su, mm, t0, sch, FINE), sch, su)
+        out["trust_fine"] = fields.ref_gap(
+            ref, reference(su, mm, t0, sch, FINE), sch, su.env.flip_air_s
+        )
     out["fields"] = []
     for label, model in field_models(su, mm, cfg):
-        h = reduced_history(model, su, t0, sch, ref)
-        out["fields"].append((label, model.n, field_errors(h, model, ref, su, cfg)))
+        h = fields.reduced_history(model, su.env, t0, sch, ref)
+        err = fields.field_errors(h, model, ref, t0, su.env.flip_air_s, cfg.rules, su.lethality)
+        out["fields"].append((label, model.n, err))
         say(f"  fields {label}")
     extra = cfg.plans_extra if (mm, t0) in cfg.extra_cases else ()
     variants = (su.default, *[v for v in (*cfg.plans, *extra) if v != su.default])

@@ -31,24 +31,25 @@ def format_case(r: dict) -> str:
         f" s, done {sch.done_s:.2f} s; trusted reference min LR at done {r['lr_ref']:.4f}"
         f" (case {r['wall']:.0f} s)",
         f"   reference 200 cells/0.05 s vs 400/0.02: cold spot {tr['cold']:.4f} K, "
-        f"time-to-target {100 * tr['time']:+.4f} %",
+        f"time-to-target {100 * tr['time']:+.4f} %, thaw {tr['thaw_s']:+.3f} s",
     ]
     if "trust_fine" in r:
         tf = r["trust_fine"]
         lines.append(
             f"   reference 400/0.02 vs 800/0.01: cold spot {tf['cold']:.4f} K, "
-            f"time-to-target {100 * tf['time']:+.4f} %"
+            f"time-to-target {100 * tf['time']:+.4f} %, thaw {tf['thaw_s']:+.3f} s"
         )
     rules = list(r["fields"][0][2]["lr"])
     lines += [
         " (a) cold-spot error, K | (b) error of the smallest LR at removal, log reductions",
-        "  model          nodes    slab    at s  Tref C     hot |     own"
+        "  model          nodes    slab    at s  Tref C     hot  thaw s  K/s |     own"
         + "".join(f" {k:>9}" for k in rules),
     ]
     for label, _n, e in r["fields"]:
         lines.append(
             f"  {label:<14} {e['cold_nodes']:5.3f} {e['cold_slab']:7.3f} {e['worst'][0]:7.1f}"
-            f" {e['worst'][1]:7.2f} {e['cold_hot']:7.3f} |"
+            f" {e['worst'][1]:7.2f} {e['cold_hot']:7.3f} {e['thaw']['shift_s']:+7.3f}"
+            f" {e['thaw']['rise_k_per_s']:4.1f} |"
             f" {e['lr_own']:+7.3f}" + "".join(f" {e['lr'][k]:+9.4f}" for k in rules)
         )
     default = r["plans"][0]

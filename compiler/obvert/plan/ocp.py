@@ -164,7 +164,7 @@ class Planner:
     def _simulate(
         self, k: int, kinds: tuple[str, ...], start_temp_c: float, dwell: np.ndarray
     ) -> tuple[list[np.ndarray], list[np.ndarray], np.ndarray, np.ndarray]:
-        """Scenario ``k`` on the reduced model (CVODES; a drooping plate at its lowest).
+        """Scenario ``k`` on the reduced model (CVODES), a drooping plate as in the collocation.
 
         Returns the stage states per phase, the food-frame LR after each phase, the final
         LR and the temperatures at removal, all at the lethality points.
@@ -174,11 +174,13 @@ class Planner:
         x = model.initial_state(start_temp_c + mem.start_offset_k)
         stages, lr, flipped, t_rem = [], np.zeros(model.m), False, np.zeros(model.m)
         lr_after: list[np.ndarray] = []
+        elapsed = 0.0
         for ph in phase_specs(kinds, mem.env, self.req.rest_s):
             if ph.flip_before:
                 x, flipped = np.array(model.flip(x)).ravel(), not flipped
             dur = float(dwell[ph.dwell_index]) if ph.dwell_index is not None else ph.fixed_s
-            traj = np.array(self._trajectory(k, ph.face0, ph.face1)(x, dur))
+            traj = np.array(self._trajectory(k, ph.face0, ph.face1)(x, dur, elapsed))
+            elapsed += dur
             stages.append(traj[:n, :].T.ravel())
             lr_lab = traj[n:, -1] - x[n:]
             lr = lr + (lr_lab[::-1] if flipped else lr_lab)

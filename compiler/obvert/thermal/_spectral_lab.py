@@ -232,13 +232,16 @@ class FilteredSpectralModel(SpectralModel):
         sigma = np.exp(-strength * (k / (self.n - 1)) ** order)
         self.d_flux = self.d @ modes @ np.diag(sigma) @ np.linalg.inv(modes)
 
-    def rhs(self, state: ca.MX, face0: FaceBC, face1: FaceBC) -> ca.MX:
+    def rhs(
+        self, state: ca.MX, face0: FaceBC, face1: FaceBC, time_s: ca.MX | float | None = None
+    ) -> ca.MX:
         """Time derivative of the state, as :meth:`SpectralModel.rhs` with a filtered flux."""
         s = state[: self.n]
         temp = ca.vertcat(*[self.temp_of(s[j]) for j in range(self.n)])
         u = ca.vertcat(*[self.kirchhoff_of(s[j]) for j in range(self.n)])
         q = -ca.mtimes(ca.DM(self.d_flux), u)
-        q = ca.vertcat(face_flux(face0, temp[0]), q[1:-1], -face_flux(face1, temp[-1]))
+        q0, q1 = face_flux(face0, temp[0], time_s), face_flux(face1, temp[-1], time_s)
+        q = ca.vertcat(q0, q[1:-1], -q1)
         ds = -ca.mtimes(ca.DM(self.d), q) / self.e_scale
         return ca.vertcat(ds, _rate(self.lethality, self.lethality_temps(temp)))
 
@@ -349,7 +352,7 @@ def _first_crossing(
             x, mirrored = np.array(model.flip(x)).ravel(), not mirrored
         steps = max(1, math.ceil(ph.duration_s / dt_s))
         fr = np.arange(1, steps + 1) / steps
-        traj = np.array(model.trajectory(ph.face0, ph.face1, fr)(x, ph.duration_s))
+        traj = np.array(model.trajectory(ph.face0, ph.face1, fr)(x, ph.duration_s, t_start))
         low_start = float(x[n:].min()) if interp is None else float(lr.min(initial=np.inf))
         if interp is None:
             low = traj[n:].min(axis=0)

@@ -253,14 +253,20 @@ class SpectralModel:
         """Log reductions at the lethality points of a state."""
         return state[self.n :]
 
-    def rhs(self, state: ca.MX, face0: FaceBC, face1: FaceBC) -> ca.MX:
-        """Time derivative of the state under the given face conditions, 1/s."""
+    def rhs(
+        self, state: ca.MX, face0: FaceBC, face1: FaceBC, time_s: ca.MX | float | None = None
+    ) -> ca.MX:
+        """Time derivative of the state under the given face conditions, 1/s.
+
+        ``time_s`` is the time from loading, s, for a drooping plate (:func:`face_flux`;
+        None: at its lowest).
+        """
         s = state[: self.n]
         temp = ca.vertcat(*[self.temp_of(s[j]) for j in range(self.n)])
         u = ca.vertcat(*[self.kirchhoff_of(s[j]) for j in range(self.n)])
         q = -ca.mtimes(ca.DM(self.d), u)
-        q_in0 = face_flux(face0, temp[0])
-        q_in1 = face_flux(face1, temp[-1])
+        q_in0 = face_flux(face0, temp[0], time_s)
+        q_in1 = face_flux(face1, temp[-1], time_s)
         q = ca.vertcat(q_in0, q[1:-1], -q_in1)
         ds = -ca.mtimes(ca.DM(self.d), q) / self.e_scale
         lm = self.lethality
@@ -300,15 +306,19 @@ class SpectralModel:
     def trajectory(
         self, face0: FaceBC, face1: FaceBC, fractions: NDArray[np.float64]
     ) -> ca.Function:
-        """Function ``(x0, duration_s) -> X`` with the state at the given phase fractions.
+        """Function ``(x0, duration_s, start_s) -> X`` with the state at the phase fractions.
 
         ``X`` has one column per entry of ``fractions`` (ascending, in (0, 1]).
+        ``start_s`` is the time of the phase start from loading, s: a drooping plate
+        follows its recovery in time, as in the planner's collocation (no effect on
+        faces that do not droop).
         """
         x = self._sym
-        dur = ca.MX.sym("dur")
-        ode = {"x": x, "p": dur, "ode": dur * self.rhs(x, face0, face1)}
+        p, tau = ca.MX.sym("p", 2), ca.MX.sym("tau")  # (duration, start), phase fraction
+        rate = self.rhs(x, face0, face1, p[1] + p[0] * tau)
+        ode = {"x": x, "p": p, "t": tau, "ode": p[0] * rate}
         opts = {"abstol": 1e-9, "reltol": 1e-7, "max_num_steps": 20000}
         f = ca.integrator("traj", "cvodes", ode, 0.0, [float(v) for v in fractions], opts)
         x0 = ca.MX.sym("x0", self.n_states)
-        d = ca.MX.sym("d")
-        return ca.Function("trajectory", [x0, d], [f(x0=x0, p=d)["xf"]])
+        d, t0 = ca.MX.sym("d"), ca.MX.sym("t0")
+        return ca.Function("trajectory", [x0, d, t0], [f(x0=x0, p=ca.vertcat(d, t0))["xf"]])
