@@ -104,6 +104,17 @@ def test_frozen_conductivity_vs_handbook_range():
     assert np.all(k_par > 1.4 * (1 + K_ERR)), k_par
 
 
+@pytest.mark.parametrize("water", [0.55, 0.62, 0.70, 0.718, 0.75, 0.80, 0.85])
+def test_freezing_point_correlation_matches_a_second_print(water):
+    """The same meat correlation as printed in a second form, depression 1.9 - 1.4*x_wo K
+    (Handbook of Frozen Food Processing and Packaging, Taylor and Francis, 2006, as quoted
+    in a secondary source; not checked against the book): the two prints agree within 0.05 K
+    over x_w = 0.55-0.85 (their rounded coefficients differ by 0.07 and 0.07 x_w), so the
+    -0.9 degC for lean beef is the published correlation's value, not a slip in the code."""
+    comp = Composition(water=water, protein=0.8 * (1.0 - water), fat=0.2 * (1.0 - water))
+    assert abs(initial_freezing_point_c(comp) + (1.9 - 1.4 * water)) <= 0.05
+
+
 @pytest.mark.xfail(
     strict=True,
     reason="271.18 + 1.47*x_w K gives -0.9 degC for x_w = 0.718, 0.8 K above the tabulated "
