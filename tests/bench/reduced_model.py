@@ -65,24 +65,23 @@ from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
-_REPORT_SPEC = importlib.util.spec_from_file_location(
-    "obvert_bench_reduced_model_report", Path(__file__).with_name("reduced_model_report.py")
-)
-report = importlib.util.module_from_spec(_REPORT_SPEC)
-_REPORT_SPEC.loader.exec_module(report)
-TARGET_COOK, TARGET_COLD_K, MAX_STATES = report.TARGET_COOK, report.TARGET_COLD_K, report.MAX_STATES
-_FIELDS_SPEC = importlib.util.spec_from_file_location(
-    "obvert_bench_reduced_model_fields", Path(__file__).with_name("reduced_model_fields.py")
-)
-fields = importlib.util.module_from_spec(_FIELDS_SPEC)
-sys.modules[_FIELDS_SPEC.name] = fields  # dataclasses look their module up here
-_FIELDS_SPEC.loader.exec_module(fields)
 
-_REF_SPEC = importlib.util.spec_from_file_location(
-    "obvert_bench_reduced_model_reference", Path(__file__).with_name("reduced_model_reference.py")
-)
-refs = importlib.util.module_from_spec(_REF_SPEC)
-_REF_SPEC.loader.exec_module(refs)
+def _sibling(name: str) -> Any:
+    """Load tests/bench/``name``.py (this folder is not a package), registered in
+    ``sys.modules`` so that its dataclasses can look their module up."""
+    spec = importlib.util.spec_from_file_location(
+        f"obvert_bench_{name}", Path(__file__).with_name(f"{name}.py")
+    )
+    mod = importlib.util.module_from_spec(spec)
+    sys.modules[spec.name] = mod
+    spec.loader.exec_module(mod)
+    return mod
+
+
+report = _sibling("reduced_model_report")
+fields = _sibling("reduced_model_fields")
+refs = _sibling("reduced_model_reference")
+TARGET_COOK, TARGET_COLD_K, MAX_STATES = report.TARGET_COOK, report.TARGET_COLD_K, report.MAX_STATES
 TRUSTED, DEFAULT_REF, FINE = refs.TRUSTED, refs.DEFAULT_REF, refs.FINE
 one_flip, reference, exact_done = refs.one_flip, refs.reference, refs.exact_done
 fixed_schedule = refs.fixed_schedule

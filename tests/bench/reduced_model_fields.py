@@ -2,8 +2,8 @@
 
 Loaded by tests/bench/reduced_model.py (method and notation in its docstring and in
 docs/reduced-model.md). Plain functions of a model, a schedule and a reference run; the
-configuration (a ``Variant``) is read through its ``nodes``, ``points``, ``stencil``,
-``alpha`` and ``rule`` attributes only.
+configuration (a ``Variant``) is read through its ``points``, ``stencil``, ``alpha`` and
+``rule`` attributes only.
 """
 
 from __future__ import annotations
@@ -66,11 +66,17 @@ def reduced_history(
     )
 
 
-def rule_lr(h: History, model: SpectralModel, v: Any, lm: LethalityModel) -> float:
-    """Smallest LR at removal at the points of rule ``v`` (trapezoid on the rows), log10."""
-    if v.points:
-        x = lab.lethality_layout(model.thickness_m, v.points, v.alpha)
-        tp = h.temps @ lab.point_matrix(model, x, v.stencil).T
+def rule_lr(
+    h: History, model: SpectralModel, points: int, stencil: int, alpha: float, lm: LethalityModel
+) -> float:
+    """Smallest LR at removal at a rule's points (trapezoid on the rows), log10.
+
+    ``points`` lethality points (0: the nodes) in ``lethality_layout`` with ``alpha``, each
+    interpolated from ``stencil`` nodes (0: the global polynomial).
+    """
+    if points:
+        x = lab.lethality_layout(model.thickness_m, points, alpha)
+        tp = h.temps @ lab.point_matrix(model, x, stencil).T
     else:
         tp = h.temps.copy()
     tp[h.mirrored] = tp[h.mirrored, ::-1]  # food frame (layouts are symmetric)
@@ -127,9 +133,8 @@ def field_errors(
     lr_ref = float(ref.log_reduction[-1].min())
     slab = np.abs(h.cold_slab[1:] - cold_ref)
     worst = int(np.argmax(np.where(keep, slab, -1.0)))
-    lr = {v.rule: rule_lr(h, model, v, lm) - lr_ref for v in rules}
-    fine = type(rules[0])(model.n, X_FINE, 0)
-    lr["slab"] = rule_lr(h, model, fine, lm) - lr_ref
+    lr = {v.rule: rule_lr(h, model, v.points, v.stencil, v.alpha, lm) - lr_ref for v in rules}
+    lr["slab"] = rule_lr(h, model, X_FINE, 0, 0.0, lm) - lr_ref
     return {
         "cold_nodes": float(np.abs(h.temps[1:].min(axis=1) - cold_ref)[keep].max()),
         "cold_slab": float(slab[keep].max()),

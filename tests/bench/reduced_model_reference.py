@@ -1,4 +1,4 @@
-"""Benchmark part: the reference side (fixed schedule, exact done times, its own gap).
+"""Benchmark part: the reference side (fixed schedule, exact done times).
 
 Loaded by tests/bench/reduced_model.py (method in its docstring and docs/reduced-model.md).
 ``su`` is that script's ``Setup`` (food table, surroundings, lethality model).
@@ -17,7 +17,6 @@ TRUSTED = ReferenceSettings(n_cells=400, dt_max_s=0.02)
 DEFAULT_REF = ReferenceSettings()  # 200 cells, 0.05 s: what certification uses
 FINE = ReferenceSettings(n_cells=800, dt_max_s=0.01)
 FLIP_FRACTION = 0.45
-Setup = Any
 
 
 def one_flip(flip_s: float, done_s: float) -> Schedule:
@@ -25,7 +24,7 @@ def one_flip(flip_s: float, done_s: float) -> Schedule:
     return Schedule((Event("flip", flip_s), Event("done", done_s)))
 
 
-def reference(su: Setup, mm: float, t0: float, sch: Schedule, rs: ReferenceSettings):
+def reference(su: Any, mm: float, t0: float, sch: Schedule, rs: ReferenceSettings):
     """Reference run of a schedule."""
     return simulate(su.table, mm * 1e-3, t0, phases_for(sch, su.env), su.lethality, rs)
 
@@ -41,7 +40,7 @@ def crossing(res: ReferenceResult, target: float) -> float | None:
 
 
 def exact_done(
-    su: Setup, mm: float, t0: float, flip_s: float, guess_s: float, rs: ReferenceSettings = TRUSTED
+    su: Any, mm: float, t0: float, flip_s: float, guess_s: float, rs: ReferenceSettings = TRUSTED
 ) -> float:
     """Reference's minimum done time for a flip at ``flip_s``, s."""
     horizon = max(guess_s * 1.04 + 2.0, flip_s + su.env.flip_air_s + 5.0)
@@ -52,7 +51,7 @@ def exact_done(
         horizon *= 1.4
 
 
-def fixed_schedule(su: Setup, mm: float, t0: float) -> tuple[Schedule, ReferenceResult]:
+def fixed_schedule(su: Any, mm: float, t0: float) -> tuple[Schedule, ReferenceResult]:
     """Flip at 45 % of the cook, done at the reference's time-to-target (secant, 200 cells)."""
     guess = 1.1e6 * (mm * 1e-3) ** 2 * (2.0 if t0 < su.table.freezing_point_c else 1.0) + 30.0
 

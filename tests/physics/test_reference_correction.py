@@ -24,7 +24,8 @@ import pytest
 
 from obvert.food.factory import food_table
 from obvert.plan.collocation import Grid
-from obvert.plan.ocp import Planner, Requirement
+from obvert.plan.modifier import Modifier
+from obvert.plan.ocp import Planner, PlanResult, Requirement
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.spec import load_spec
 from obvert.table.build import lethality_of, surroundings
@@ -102,42 +103,41 @@ def test_removal_temperature_rule_is_corrected_too() -> None:
     assert cal.result.bias[0][1] != 0.0
 
 
-def test_gap_beyond_the_limit_keeps_the_plan() -> None:
-    """A reference of another slab (twice as thick) is no calibration of this model: the
-    gap exceeds the factor-2 limit and the plan is returned unchanged, with the reason."""
+@pytest.fixture(scope="module")
+def chilled_6mm() -> tuple[Planner, PlanResult, Case]:
+    """6 mm chilled, 7-log target: planner, its zero-flip plan, and the calibration case."""
     req = Requirement(7.0)
     planner = _planner(6.0, req)
-    plan = planner.solve((), 4.0)
-    wrong = Case(TABLE, 12e-3, 4.0, ENV, LETH, req, CALIBRATION_REF)
+    case = Case(TABLE, 6e-3, 4.0, ENV, LETH, req, CALIBRATION_REF)
+    return planner, planner.solve((), 4.0), case
+
+
+def test_gap_beyond_the_limit_keeps_the_plan(chilled_6mm) -> None:
+    """A reference of another slab (twice as thick) is no calibration of this model: the
+    gap exceeds the factor-2 limit and the plan is returned unchanged, with the reason."""
+    planner, plan, case = chilled_6mm
+    wrong = replace(case, thickness_m=12e-3)
     cal = calibrate(planner, (), 4.0, [wrong], plan, 3)
     assert cal.result is plan and cal.rounds == 0
     assert "too far apart" in cal.note
 
 
-def test_gap_needs_one_case_per_scenario() -> None:
+def test_gap_needs_one_case_per_scenario(chilled_6mm) -> None:
     """Mismatched scenarios are an error naming both counts, not a silent zip."""
-    req = Requirement(7.0)
-    planner = _planner(6.0, req)
-    plan = planner.solve((), 4.0)
-    case = Case(TABLE, 6e-3, 4.0, ENV, LETH, req, CALIBRATION_REF)
+    _, plan, case = chilled_6mm
     with pytest.raises(ValueError, match="2 given, the plan has 1"):
         gap(plan, [case, replace(case, start_temp_c=3.0)])
 
 
-def test_zero_rounds_is_the_model_plan() -> None:
+def test_zero_rounds_is_the_model_plan(chilled_6mm) -> None:
     """correction_rounds = 0 leaves the reduced model's plan as it is."""
-    req = Requirement(7.0)
-    planner = _planner(6.0, req)
-    plan = planner.solve((), 4.0)
-    case = Case(TABLE, 6e-3, 4.0, ENV, LETH, req, CALIBRATION_REF)
+    planner, plan, case = chilled_6mm
     cal = calibrate(planner, (), 4.0, [case], plan, 0)
     assert cal.result is plan and cal.rounds == 0
 
 
-def test_modifier_must_match_scenarios_and_dwells() -> None:
+def test_modifier_must_match_scenarios_and_dwells(chilled_6mm) -> None:
     """A modifier built for another event sequence is refused with both shapes named."""
-    from obvert.plan.modifier import Modifier
-
-    planner = _planner(6.0, Requirement(7.0))
+    planner, _, _ = chilled_6mm
     with pytest.raises(ValueError, match="1 scenarios and 2 dwells: allowed 1 scenarios and 1"):
         planner.solve((), 4.0, modifier=Modifier.zero(1, 2))

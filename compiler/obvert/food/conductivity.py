@@ -130,17 +130,7 @@ def levy(k1: ArrayLike, k2: ArrayLike, v1: ArrayLike) -> Array:
     ``k1 (2 + L - 2 (L - 1) F1) / (2 + L + (L - 1) F1)``, returns ``k1`` at ``v1 = 0`` and
     so cannot be right as written; it is not used.
 
-    Parameters
-    ----------
-    k1, k2 : array_like
-        Phase conductivities, W/(m K), > 0.
-    v1 : array_like
-        Volume fraction of phase 1, - in [0, 1].
-
-    Returns
-    -------
-    ndarray
-        Effective conductivity, W/(m K).
+    Arguments as for :func:`parallel`; returns the effective conductivity, W/(m K).
     """
     a, b = _as_conductivity("k1", k1), _as_conductivity("k2", k2)
     lam = a / b

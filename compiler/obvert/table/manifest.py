@@ -33,6 +33,10 @@ def _r(x: float) -> float:
     return round(float(x), _DIGITS)
 
 
+def _r_opt(x: float | None) -> float | None:
+    return None if x is None else _r(x)
+
+
 def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
     events = [
         {"kind": e.kind, "at_s": _r(e.at_s), "at_ticks": to_ticks(e.at_s, tick_s)}
@@ -48,26 +52,22 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "cook_time_s": _r(node.schedule.done_s),
         "cook_ticks": to_ticks(node.schedule.done_s, tick_s),
         "planned_cook_time_s": _r(node.planned_cook_time_s),
-        "model_planned_s": None if node.model_planned_s is None else _r(node.model_planned_s),
+        "model_planned_s": _r_opt(node.model_planned_s),
         "calibration_note": node.calibration_note,
         "correction_s": _r(node.correction_s),
         "min_log_reduction": _r(node.min_log_reduction),
         "margin_log": _r(node.margin_log),
         "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
-        "bounds_s": {k: (None if v is None else _r(v)) for k, v in node.bounds_s},
-        "nominal_planned_s": None if node.nominal_planned_s is None else _r(node.nominal_planned_s),
+        "bounds_s": {k: _r_opt(v) for k, v in node.bounds_s},
+        "nominal_planned_s": _r_opt(node.nominal_planned_s),
         "price_of_robustness_s": None
         if node.nominal_planned_s is None
         else _r(node.planned_cook_time_s - node.nominal_planned_s),
         "candidates": [
             {
                 "flips": c.flips,
-                "planned_cook_time_s": None
-                if c.planned_cook_time_s is None
-                else _r(c.planned_cook_time_s),
-                "corrected_cook_time_s": None
-                if c.corrected_cook_time_s is None
-                else _r(c.corrected_cook_time_s),
+                "planned_cook_time_s": _r_opt(c.planned_cook_time_s),
+                "corrected_cook_time_s": _r_opt(c.corrected_cook_time_s),
                 "note": c.note,
                 "sequence": list(c.sequence),
             }
