@@ -50,8 +50,8 @@ def _node(i: int, j: int, thickness_m: float, temp_c: float, index: int) -> dict
         "events": events,
         "cook_time_s": events[-1]["at_s"],
         "min_log_reduction": 7.0 + 0.125 * index,
-        "margin_log": 0.125 * index - 0.0625,
-        "correction_s": 0.5 * index,
+        "margin_log": 0.125 * index + 0.0625,
+        "extension_s": 0.5 * index,
         "planned_cook_time_s": cook_s - 0.5,
         "peak_surface_c": 150.0 + index,
     }
@@ -70,7 +70,7 @@ def synthetic_manifest(
         for j, t in enumerate(start_temp_c)
     ]
     return {
-        "format_version": 1,
+        "format_version": 2,
         "generator": {"name": "obvert", "version": "0.0.0+synthetic"},
         "caution": CAUTION,
         "table": {"name": name, "title": "Synthetic test table */ with ?? awkward text"},
@@ -94,7 +94,7 @@ def synthetic_manifest(
             "source": "invented for a rendering test",
             "d_ref_s": 100.0,
             "t_ref_c": 60.0,
-            "z_c": 5.6,
+            "z_k": 5.6,
             "min_temp_c": None,
         },
         "nodes": nodes,

@@ -9,24 +9,13 @@ from __future__ import annotations
 import os
 import sys
 import tempfile
-from importlib import resources
 from pathlib import Path
 
 import click
 
-from obvert import CAUTION, __version__
-from obvert.emit import EmitError, ProfileError, emit, load_target
-from obvert.spec import SpecError, load_spec, loads_spec
-from obvert.summary import summary
-from obvert.table.build import BuildError
-from obvert.table.compile import CellCertificationError, compile_table
-from obvert.table.manifest import manifest
+from obvert.about import CAUTION, __version__
 
-DEMOS = {"griddle": "griddle_patty.toml", "clamshell": "clamshell_patty.toml"}
-
-
-def _demo_spec_text(name: str) -> str:
-    return resources.files("obvert.demo").joinpath(DEMOS[name]).read_text("utf-8")
+DEMOS = ("clamshell", "griddle")
 
 
 def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
@@ -77,7 +66,7 @@ def main() -> None:
 )
 @click.option(
     "--demo",
-    type=click.Choice(sorted(DEMOS)),
+    type=click.Choice(DEMOS),
     default="griddle",
     show_default=True,
     help="Built-in demo to build when no SPEC_FILE is given (invented kitchen and products).",
@@ -92,12 +81,15 @@ def build_cmd(
     quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
+    from obvert.api import compile_table, demo_spec, emit
+    from obvert.emitter import EmitError, ProfileError, load_target
+    from obvert.firmware import ManifestError
+    from obvert.review.summary import summary
+    from obvert.spec import SpecError, load_spec
+    from obvert.table import BuildError, CellCertificationError, manifest
+
     try:
-        spec = (
-            load_spec(spec_file)
-            if spec_file is not None
-            else loads_spec(_demo_spec_text(demo), f"<demo {demo}>")
-        )
+        spec = load_spec(spec_file) if spec_file is not None else demo_spec(demo)
         profiles = [load_target(t) for t in (targets or spec.targets)]
     except (SpecError, ProfileError) as exc:
         click.echo(f"error: {exc}", err=True)
@@ -108,25 +100,18 @@ def build_cmd(
             err=True,
         )
     progress = None if quiet else (lambda msg: click.echo(msg, err=True))
-    rules = sorted({"corner", *(p.lookup for p in profiles)})
     try:
-        table = compile_table(spec, rules, progress, jobs=jobs)
+        table = compile_table(spec, profiles, progress=progress, jobs=jobs)
     except (BuildError, CellCertificationError) as exc:
         click.echo(f"error: {exc}", err=True)
         click.echo("nothing was written", err=True)
         sys.exit(1)
-    m = manifest(table)
-    files: dict[str, bytes] = {}
     try:
-        for prof in profiles:
-            for name, data in emit(m, prof).items():
-                if name in files and files[name] != data:
-                    raise EmitError(f"two targets write different contents to {name!r}")
-                files[name] = data
-    except EmitError as exc:
+        files = emit(table, profiles)
+    except (EmitError, ManifestError) as exc:
         click.echo(f"error: {exc}", err=True)
         sys.exit(2)
-    click.echo(summary(m))
+    click.echo(summary(manifest(table)))
     write_atomically(out_dir, files)
     for name in sorted(files):
         click.echo(f"wrote {out_dir / name}")

@@ -27,7 +27,7 @@ from obvert.thermal.boundary import FaceBC, Phase
 from obvert.thermal.reference import ReferenceSettings, simulate
 
 BEEF = composition_table(Composition(water=0.62, protein=0.172, fat=0.20, ash=0.008), "beef")
-KINETICS = LethalityModel(d_ref_s=30.0, t_ref_c=60.0, z_c=5.6)  # illustrative
+KINETICS = LethalityModel(d_ref_s=30.0, t_ref_c=60.0, z_k=5.6)  # illustrative
 AIR = FaceBC(h=15.0, t_inf_c=25.0, emissivity=0.9)
 SETTINGS = ReferenceSettings()
 

@@ -17,9 +17,9 @@ integrated, not states; 0: at the nodes), nodes each point interpolates from (0:
 global polynomial), Radau elements per phase; ``cA``: points clustered mid-slab
 (lab ``lethality_layout`` with alpha A); ``gG``: element grading G (default 1.35);
 ``rN``: the plan corrected against the reference (200 cells / 0.05 s, what the build uses)
-for up to N rounds (obvert.table.calibrate; no suffix: the reduced model's plan alone);
+for up to N rounds (obvert.certify.calibrate; no suffix: the reduced model's plan alone);
 ``mapped``: the lab's mapped grid. The default is what the build uses (the spec's
-[planning] defaults, SpectralSettings' stencil, correction_rounds).
+[planning] defaults, SpectralSettings' stencil, calibration_rounds).
 
 (a) cold-spot error: max over time of |min over slab T_reduced - min over slab T_ref| on a
     fixed schedule (one flip at 45 % of the cook, done at the reference's time-to-target),
@@ -50,18 +50,18 @@ from pathlib import Path
 from typing import Any
 
 import numpy as np
+import spectral_lab as lab  # tests/bench is on sys.path
 
-from obvert.food.factory import food_table
+from obvert.certify.calibrate import calibrate
 from obvert.food.lethality import LethalityModel
 from obvert.food.presets import preset
 from obvert.food.table import PropertyTable
 from obvert.plan.collocation import Grid
 from obvert.plan.ocp import PlanError, Planner, Requirement
 from obvert.plan.schedule import Surroundings
+from obvert.problem import Case
+from obvert.problem.foods import food_table
 from obvert.spec import load_spec
-from obvert.table.calibrate import calibrate
-from obvert.table.certify import Case
-from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
@@ -201,7 +201,7 @@ def demo_setup() -> Setup:
         pl.lethality_points,
         SpectralSettings().lethality_stencil,
         pl.elements_per_phase,
-        rounds=pl.correction_rounds,
+        rounds=pl.calibration_rounds,
     )
     return Setup(food_table(spec.food), org.model(), env, req, a.min_event_gap_s, default)
 

@@ -12,10 +12,10 @@ from dataclasses import dataclass
 from typing import Any
 
 import numpy as np
+import spectral_lab as lab  # tests/bench is on sys.path
 
 from obvert.food.lethality import LethalityModel
 from obvert.plan.schedule import Schedule, Surroundings, phases_for
-from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.reference import ReferenceResult
 from obvert.thermal.spectral import SpectralModel
 

@@ -27,8 +27,8 @@ from pathlib import Path
 
 import numpy as np
 import pytest
+import spectral_lab as lab  # tests/bench is on sys.path
 
-from obvert.thermal import _spectral_lab as lab
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
 pytestmark = pytest.mark.bench

@@ -4,7 +4,7 @@ Outside references: the C compilers (gcc, clang; ISO/IEC 9899:1999 "Programming 
 C", ISO 1999, at -std=c99 -Wall -Wextra -Werror -pedantic), IEEE 754-2019 binary32
 arithmetic of the host CPU and of 32-bit ARM (hard-float) under qemu, and the C99 exact-width
 integer types (section 7.18.1.1) for the int64 sums. The expected answers come from
-``obvert.table.lookup`` (rule="bilinear"), whose arithmetic is checked against an exact
+``obvert.firmware.lookup`` (rule="bilinear"), whose arithmetic is checked against an exact
 rational reference in tests/unit/test_lookup_bilinear.py. The tables are synthetic
 (invented numbers).
 """
@@ -19,8 +19,8 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from obvert.emit import EmitError, ProfileError, emit, load_target, loads_target
-from obvert.table.lookup import (
+from obvert.emitter import EmitError, ProfileError, emit, load_target, loads_target
+from obvert.firmware.lookup import (
     lookup_f32,
     lookup_fixed,
     start_temp_axis_cc,

@@ -7,7 +7,7 @@ Outside reference: the C compilers at -std=c99 -Wall -Wextra -Werror -pedantic
 
 from __future__ import annotations
 
-from obvert.table.lookup import lookup_f32
+from obvert.firmware.lookup import lookup_f32
 
 from .test_c_header import _hex32, expected_line, float_queries
 

@@ -3,7 +3,7 @@
 Outside references: the C compilers (gcc, clang; ISO/IEC 9899:1999 "Programming languages
 - C", ISO 1999, at -std=c99 -pedantic) and IEEE 754-2019 binary32 arithmetic as implemented
 by the host CPU and by 32-bit ARM (hard-float) under qemu. Expected answers come from
-obvert.table.lookup, whose own semantics are checked against a brute-force rational
+obvert.firmware.lookup, whose own semantics are checked against a brute-force rational
 reference in tests/unit/test_lookup.py.
 """
 
@@ -18,8 +18,8 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from obvert.emit import emit, load_target
-from obvert.table.lookup import (
+from obvert.emitter import emit, load_target
+from obvert.firmware.lookup import (
     LookupResult,
     lookup,
     lookup_f32,

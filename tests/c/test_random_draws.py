@@ -22,9 +22,9 @@ from dataclasses import replace
 import numpy as np
 import pytest
 
-from obvert.table.cells import schedule_of
-from obvert.table.compile import cases_at
-from obvert.table.judge_batch import judge_many
+from obvert.certify.batch import judge_many
+from obvert.certify.cells import schedule_of
+from obvert.problem import problem_of
 
 DRAWS = 2000
 
@@ -51,7 +51,7 @@ def draw_cases(spec, manifest, toolchain, tmp_path, harness, out_dir, n: int, se
     tick = float(manifest["tick_s"])
     tol = spec.tolerances
     cases, schedules = [], []
-    nominal = cases_at(replace(spec, tolerances=type(tol)()), 0.01, 0.0)[0]
+    nominal = problem_of(replace(spec, tolerances=type(tol)())).cases_at(0.01, 0.0)[0]
     for a, b, line in zip(x, t, lines, strict=True):
         fields = line.split()
         assert fields[0] == "0", f"lookup refused ({a * 1e3:.3f} mm, {b:.2f} degC): {line}"

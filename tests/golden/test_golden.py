@@ -14,7 +14,8 @@ from pathlib import Path
 
 import pytest
 
-from obvert.emit import canonical_json, emit, load_target
+from obvert.emitter import emit, load_target
+from obvert.firmware import canonical_json
 
 GOLDEN = Path(__file__).resolve().parent
 TARGETS = ("c99", "c99_fixed", "json")

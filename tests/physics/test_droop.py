@@ -135,7 +135,7 @@ def patty_table():
 def test_colder_or_drooping_plate_never_gives_more_lethality() -> None:
     # Frozen patty, 10 mm, one flip; kinetics of the order of the USDA FSIS Appendix A
     # 7-log fit (D = 60 s at 60 degC, z = 5.6 K; illustrative, not a certified value).
-    table, kinetics = patty_table(), LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_c=5.6)
+    table, kinetics = patty_table(), LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_k=5.6)
     air = FaceBC(h=15.0, t_inf_c=25.0, emissivity=0.9)
     settings = ReferenceSettings(n_cells=100, dt_max_s=0.1)
 
@@ -163,7 +163,7 @@ def _spectral_history(start_of: Callable[[float], float]) -> np.ndarray:
     """16-node reduced model on PHASES at the finite-difference sample times; node
     temperatures (degC, rows), the droop clock of each phase set by ``start_of``."""
     table = constant_table("lean-meat-like solid", K, RHO, CP)
-    kinetics = LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_c=5.6)
+    kinetics = LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_k=5.6)
     model = SpectralModel(table, L, kinetics, SpectralSettings(16, lethality_points=0))
     x, start, rows = model.initial_state(START_C), 0.0, []
     for ph in PHASES:

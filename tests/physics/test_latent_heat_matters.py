@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from obvert.certify.node import judge
 from obvert.food.choi_okos import Composition, composition_table, properties_at
 from obvert.food.presets import preset
 from obvert.food.table import PropertyTable
@@ -17,7 +18,7 @@ from obvert.plan.collocation import Grid
 from obvert.plan.ocp import Planner, Requirement
 from obvert.plan.quantize import quantize
 from obvert.plan.schedule import Surroundings
-from obvert.table.certify import Case, judge
+from obvert.problem import Case
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.reference import ReferenceSettings
 from obvert.thermal.spectral import SpectralModel, SpectralSettings

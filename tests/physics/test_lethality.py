@@ -151,7 +151,7 @@ def test_fsis_preset_is_the_fit_it_states():
     d60, z = _fit([f_to_c(f) for f in FSIS_ROWS], [v[1] / 7.0 for v in FSIS_ROWS.values()])
     p = preset("salmonella_beef_7log")
     assert p.t_ref_c == 60.0 and p.target_log_reduction == 7.0
-    assert p.d_ref_s == pytest.approx(d60, rel=1e-3) and p.z_c == pytest.approx(z, abs=1e-3)
+    assert p.d_ref_s == pytest.approx(d60, rel=1e-3) and p.z_k == pytest.approx(z, abs=1e-3)
     assert "derived fit" in p.source.lower()
     # Project references: "D(60 degC) about 1.7 min and z about 5.6 degC (derived)".
     assert abs(d60 / 60.0 - 1.7) < 0.05 and abs(z - 5.6) < 0.05
@@ -191,7 +191,7 @@ def test_juneja_preset_uses_published_z_and_fitted_d():
     z, redone here (0.1 %); the free fit of the published D values gives z within 0.1 degC of
     the published value (printed to 0.1 degC)."""
     p = preset("ecoli_o157_lean_beef")
-    assert p.z_c == 6.0
+    assert p.z_k == 6.0
     d60 = 10.0 ** np.mean(np.log10(np.array(JUNEJA_D) * 60.0) + (np.array(JUNEJA_T) - 60.0) / 6.0)
     assert p.d_ref_s == pytest.approx(d60, rel=1e-3)
     _, z_free = _fit(JUNEJA_T, np.array(JUNEJA_D) * 60.0)
@@ -213,7 +213,7 @@ def test_fitted_presets_are_the_fits_they_state(name, temps, d_min, z_pub, z_tol
     d60, z = _fit(temps, np.array(d_min) * 60.0)
     p = preset(name)
     assert p.d_ref_s == pytest.approx(d60, rel=1e-3)
-    assert p.z_c == pytest.approx(z, abs=6e-3)
+    assert p.z_k == pytest.approx(z, abs=6e-3)
     assert abs(z - z_pub) < z_tol
     assert "derived fit" in p.source.lower()
 
@@ -223,14 +223,14 @@ def test_two_salmonella_data_sets_agree():
     Salmonella-in-beef data; their kinetics agree within the D_FACTOR band and 0.5 degC in z."""
     a, b = preset("salmonella_beef_7log"), preset("salmonella_ground_beef")
     assert 1.0 / D_FACTOR < a.d_ref_s / b.d_ref_s < D_FACTOR
-    assert abs(a.z_c - b.z_c) < 0.5
+    assert abs(a.z_k - b.z_k) < 0.5
 
 
 def test_every_preset_cites_its_source():
     """Every preset names its published source (an author-year or agency-year citation)."""
     for p in PRESETS.values():
         assert any(str(y) in p.source for y in (1978, 1991, 1997, 1999)), p.source
-        assert p.d_ref_s > 0.0 and p.z_c > 0.0 and p.target_log_reduction > 0.0
+        assert p.d_ref_s > 0.0 and p.z_k > 0.0 and p.target_log_reduction > 0.0
 
 
 def test_log_reduction_of_a_ramp_matches_quadrature(salmonella):
@@ -244,7 +244,7 @@ def test_log_reduction_of_a_ramp_matches_quadrature(salmonella):
     times = np.linspace(0.0, 270.0, 2701)
     lr = log_reduction(salmonella, times, [temp(t) for t in times])
     ref = quad(lambda t: float(salmonella.rate(temp(t))), 0.0, 270.0, points=[240.0])[0]
-    z, d = salmonella.z_c, salmonella.d_ref_s
+    z, d = salmonella.z_k, salmonella.d_ref_s
     rate_at = [10.0 ** ((x - 60.0) / z) / d for x in (20.0, 72.0)]
     ramp = (rate_at[1] - rate_at[0]) * 240.0 / 52.0 * z / math.log(10.0)
     closed = ramp + 30.0 * rate_at[1]

@@ -1,6 +1,6 @@
 """The orderings the certification relies on, checked on the reference model.
 
-Cell certification (obvert.table.cells) and the worst-case scenario (obvert.table.scenarios)
+Cell certification (obvert.certify.cells) and the worst-case scenario (obvert.problem.scenarios)
 use that, under one fixed schedule, a colder start, a colder or drooping plate and a weaker
 contact never give a higher smallest log reduction nor a warmer cold spot at removal. For
 the enthalpy form of the heat equation with monotone boundary fluxes this is the
@@ -16,11 +16,12 @@ from dataclasses import replace
 
 import pytest
 
+from obvert.certify.node import judge
 from obvert.food.choi_okos import Composition, composition_table
 from obvert.food.lethality import LethalityModel
 from obvert.plan.ocp import Requirement
 from obvert.plan.schedule import Event, Schedule, Surroundings
-from obvert.table.certify import Case, judge
+from obvert.problem import Case
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.reference import ReferenceSettings
 

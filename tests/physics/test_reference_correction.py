@@ -1,4 +1,4 @@
-"""Reference-calibrated correction of a plan (obvert.table.calibrate).
+"""Reference-calibrated correction of a plan (obvert.certify.calibrate).
 
 The reduced model alone plans a few tenths of a per cent short of the finite-volume
 reference (docs/reduced-model.md). The correction is the zero-order modifier of real-time
@@ -22,22 +22,22 @@ from importlib.resources import files
 import numpy as np
 import pytest
 
-from obvert.food.factory import food_table
+from obvert.certify.calibrate import calibrate, gap
+from obvert.certify.node import judge
 from obvert.plan.collocation import Grid
 from obvert.plan.modifier import Modifier
 from obvert.plan.ocp import Planner, PlanResult, Requirement
 from obvert.plan.schedule import Schedule, phases_for
+from obvert.problem import Case, problem_of, surroundings
+from obvert.problem.foods import food_table
 from obvert.spec import load_spec
-from obvert.table.build import lethality_of, surroundings
-from obvert.table.calibrate import calibrate, gap
-from obvert.table.certify import Case, judge
 from obvert.thermal.reference import ReferenceSettings, simulate
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
 SPEC = load_spec(str(files("obvert.demo") / "griddle_patty.toml"))
 TABLE = food_table(SPEC.food)
 ENV = surroundings(SPEC)
-LETH = lethality_of(SPEC)
+LETH = problem_of(SPEC).lethality
 CALIBRATION_REF = ReferenceSettings()  # what the build calibrates and certifies on
 FINE_REF = ReferenceSettings(n_cells=400, dt_max_s=0.02)
 TARGET_COOK = 1e-3  # issue: cook-time error at most 0.1 %
@@ -130,7 +130,7 @@ def test_gap_needs_one_case_per_scenario(chilled_6mm) -> None:
 
 
 def test_zero_rounds_is_the_model_plan(chilled_6mm) -> None:
-    """correction_rounds = 0 leaves the reduced model's plan as it is."""
+    """calibration_rounds = 0 leaves the reduced model's plan as it is."""
     planner, plan, case = chilled_6mm
     cal = calibrate(planner, (), 4.0, [case], plan, 0)
     assert cal.result is plan and cal.rounds == 0

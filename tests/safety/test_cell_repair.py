@@ -13,16 +13,16 @@ sample passes.
 
 from __future__ import annotations
 
-from obvert.table.cells import lookup_schedules, sample_points, trial_cells, with_cells
-from obvert.table.compile import cases_at
-from obvert.table.judge_batch import judge_many
+from obvert.certify.batch import judge_many
+from obvert.certify.cells import lookup_schedules, sample_points, trial_cells, with_cells
+from obvert.problem import problem_of
 
 
 def _judge(spec, manifest, rule, points):
     cases, scheds = [], []
     for p in points:
         for s in lookup_schedules(manifest, rule, *p):
-            for c in cases_at(spec, *p):
+            for c in problem_of(spec).cases_at(*p):
                 cases.append(c)
                 scheds.append(s)
     return judge_many(cases, scheds)

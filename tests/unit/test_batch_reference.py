@@ -13,13 +13,14 @@ import numpy as np
 import pytest
 
 import obvert.thermal.batch as batch
+from obvert.certify.batch import judge_many
+from obvert.certify.node import judge
 from obvert.food.choi_okos import Composition, composition_table
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import constant_table
 from obvert.plan.ocp import Requirement
 from obvert.plan.schedule import Event, Schedule, Surroundings
-from obvert.table.certify import Case, judge
-from obvert.table.judge_batch import judge_many
+from obvert.problem import Case
 from obvert.thermal import _fv
 from obvert.thermal._fv_batch import BatchProps
 from obvert.thermal.batch import CookCase, ReferenceSummary, simulate_many
@@ -32,7 +33,7 @@ TOL_K, TOL_LOG = 1e-3, 1e-4
 BEEF = composition_table(Composition(water=0.62, protein=0.172, fat=0.20, ash=0.008), "beef")
 # Illustrative kinetics (D = 30 s at 60 degC, z = 5.6 K; of the order of the USDA FSIS
 # Appendix A fits, not a certified value).
-KINETICS = LethalityModel(d_ref_s=30.0, t_ref_c=60.0, z_c=5.6)
+KINETICS = LethalityModel(d_ref_s=30.0, t_ref_c=60.0, z_k=5.6)
 PLATE = FaceBC(h=420.0, t_inf_c=190.0)
 DROOP = FaceBC(h=450.0, t_inf_c=200.0, droop_k=35.0, droop_tau_s=20.0)
 PLATEN = FaceBC(h=300.0, t_inf_c=175.0, droop_k=15.0, droop_tau_s=10.0)

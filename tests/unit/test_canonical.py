@@ -18,7 +18,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from obvert.emit import CanonicalError, canonical_json, canonical_sha256
+from obvert.firmware import CanonicalError, canonical_json, canonical_sha256
 
 # RFC 8259 section 6: number = [ minus ] int [ frac ] [ exp ]
 RFC8259_NUMBER = re.compile(r"-?(0|[1-9][0-9]*)(\.[0-9]+)?([eE][+-]?[0-9]+)?\Z")

@@ -19,10 +19,11 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from obvert.emit import EmitError, TargetProfile, emit, load_target
-from obvert.emit.filters import c_comment, c_float, c_int, c_string, c_uint, num
-from obvert.emit.profile import OutputSpec
-from obvert.emit.render import environment, render_template
+from obvert.emitter import EmitError, TargetProfile, emit, load_target
+from obvert.firmware import ManifestError
+from obvert.emitter.filters import c_comment, c_float, c_int, c_string, c_uint, num
+from obvert.emitter.profile import OutputSpec
+from obvert.emitter.render import environment, render_template
 
 _SPEC = importlib.util.spec_from_file_location(
     "obvert_tests_manifest_unit", Path(__file__).resolve().parents[1] / "conftest_manifest.py"
@@ -67,7 +68,12 @@ def _broken(path: str, value):
     [
         ("tick_s", KeyError, r"tick_s is missing"),
         ("tick_s", 0.0, r"tick_s = 0.0: expected a number > 0"),
-        ("format_version", 2, r"format_version = 2: supported \[1\]"),
+        ("format_version", 3, r"format_version = 3: supported \[2\]"),
+        ("format_version", 1, r"format_version = 1: an older format.*upgrade_manifest"),
+        ("nodes.4.margin_log", -0.002, r"nodes\[4\].margin_log = -0.002: not certified"),
+        ("nodes.4.min_log_reduction", 6.9, r"nodes\[4\].min_log_reduction = 6.9: not certified"),
+        ("nodes.2.margin_log", KeyError, r"nodes\[2\].margin_log = None: missing: every node"),
+        ("nodes.2.extension_s", -1.0, r"nodes\[2\].extension_s = -1.0: expected >= 0 s"),
         ("table.name", "Grill-A", r"table.name = 'Grill-A'"),
         ("spec_hash", "abc", r"spec_hash = 'abc'"),
         ("axes.thickness_m", [0.009, 0.006, 0.012, 0.015], r"axes.thickness_m\[0\] and \[1\]"),
@@ -88,7 +94,7 @@ def _broken(path: str, value):
     ],
 )
 def test_bad_manifest_names_field_and_value(path, value, pattern):
-    with pytest.raises(EmitError, match=pattern):
+    with pytest.raises(ManifestError, match=pattern):
         emit(_broken(path, value), C99)
 
 

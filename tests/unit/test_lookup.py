@@ -16,7 +16,7 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from obvert.table.lookup import (
+from obvert.firmware.lookup import (
     LookupResult,
     LookupStatus,
     lookup,

@@ -6,8 +6,8 @@ import dataclasses
 
 import pytest
 
-from obvert.emit import OutputSpec, ProfileError, TargetProfile, load_target, loads_target
-from obvert.emit.profile import builtin_targets
+from obvert.emitter import OutputSpec, ProfileError, TargetProfile, load_target, loads_target
+from obvert.emitter.profile import builtin_targets
 
 GOOD = """
 name = "demo"

@@ -4,7 +4,8 @@ from __future__ import annotations
 
 import pytest
 
-from obvert.plan.quantize import quantize, to_ticks
+from obvert.firmware import to_ticks
+from obvert.plan.quantize import quantize
 from obvert.plan.schedule import Event, Schedule
 
 

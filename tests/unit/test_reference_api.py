@@ -25,7 +25,7 @@ AIR = FaceBC(h=15.0, t_inf_c=25.0, emissivity=0.9)
 COARSE = ReferenceSettings(n_cells=40, dt_max_s=0.1)
 # Illustrative kinetics (D = 60 s at 60 degC, z = 5.6 K; of the order of the USDA FSIS
 # Appendix A 7-log fit quoted in REFERENCES.md, not a certified value).
-KINETICS = LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_c=5.6)
+KINETICS = LethalityModel(d_ref_s=60.0, t_ref_c=60.0, z_k=5.6)
 
 
 def run(phases, start=5.0, settings=COARSE, lethality=None, table=TABLE, thickness=0.01):

@@ -69,7 +69,7 @@ def test_custom_kinetics_need_a_source() -> None:
     s = loads_spec(
         text.replace("log_reduction = 6.5", 'log_reduction = 6.5\nsource = "our lab, 2026"')
     )
-    assert s.safety.d_ref_s == pytest.approx(90.0) and s.safety.z_c == pytest.approx(5.5)
+    assert s.safety.d_ref_s == pytest.approx(90.0) and s.safety.z_k == pytest.approx(5.5)
 
 
 def test_invalid_toml_is_a_spec_error() -> None:
@@ -102,10 +102,10 @@ def test_conductivity_model_default_choice_and_errors() -> None:
         loads_spec(text.format('conductivity_model = "series"'))
 
 
-def test_planning_correction_rounds() -> None:
-    """[planning] correction_rounds: 3 by default, 0 turns the correction off, 0-8 allowed."""
-    assert loads_spec(_demo()).planning.correction_rounds == 3
-    text = _demo().replace('flip_cost = "3 s"', 'flip_cost = "3 s"\ncorrection_rounds = {}')
-    assert loads_spec(text.format(0)).planning.correction_rounds == 0
-    with pytest.raises(SpecError, match=r"planning\.correction_rounds.*9.*0 to 8"):
+def test_planning_calibration_rounds() -> None:
+    """[planning] calibration_rounds: 3 by default, 0 turns the correction off, 0-8 allowed."""
+    assert loads_spec(_demo()).planning.calibration_rounds == 3
+    text = _demo().replace('flip_cost = "3 s"', 'flip_cost = "3 s"\ncalibration_rounds = {}')
+    assert loads_spec(text.format(0)).planning.calibration_rounds == 0
+    with pytest.raises(SpecError, match=r"planning\.calibration_rounds.*9.*0 to 8"):
         loads_spec(text.format(9))

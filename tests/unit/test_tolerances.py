@@ -6,9 +6,9 @@ from importlib.resources import files
 
 import pytest
 
+from obvert.problem import surroundings
+from obvert.problem.scenarios import fat_variant, scenarios
 from obvert.spec import SpecError, loads_spec
-from obvert.table.build import surroundings
-from obvert.table.scenarios import fat_variant, scenarios
 
 DEMO = (files("obvert.demo") / "griddle_patty.toml").read_text()
 BASE = DEMO.split("[tolerances]")[0]

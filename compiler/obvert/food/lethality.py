@@ -23,7 +23,7 @@ class LethalityModel:
         Decimal reduction time at ``t_ref_c``, s.
     t_ref_c : float
         Reference temperature of ``d_ref_s``, degC.
-    z_c : float
+    z_k : float
         Temperature change giving a tenfold change of D, K.
     cap_c : float
         Temperature above which the rate is no longer increased, degC.
@@ -31,13 +31,13 @@ class LethalityModel:
 
     d_ref_s: float
     t_ref_c: float
-    z_c: float
+    z_k: float
     cap_c: float = 90.0
 
     def rate(self, temp_c: ArrayLike) -> NDArray[np.float64]:
         """Lethality rate at ``temp_c`` (degC), log reductions per second."""
         t = np.minimum(np.asarray(temp_c, dtype=float), self.cap_c)
-        return np.power(10.0, (t - self.t_ref_c) / self.z_c) / self.d_ref_s
+        return np.power(10.0, (t - self.t_ref_c) / self.z_k) / self.d_ref_s
 
     def hold_time_s(self, temp_c: float, log_reduction: float) -> float:
         """Time at constant ``temp_c`` (degC) that gives ``log_reduction``, s."""

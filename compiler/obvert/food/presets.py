@@ -30,7 +30,7 @@ class OrganismPreset:
         Decimal reduction time at ``t_ref_c``, s.
     t_ref_c : float
         Reference temperature, degC.
-    z_c : float
+    z_k : float
         z value, K.
     target_log_reduction : float
         Default log10 reduction a cook program must reach, -.
@@ -42,13 +42,13 @@ class OrganismPreset:
     matrix: str
     d_ref_s: float
     t_ref_c: float
-    z_c: float
+    z_k: float
     target_log_reduction: float
     source: str
 
     def model(self, cap_c: float = 90.0) -> LethalityModel:
         """Lethality model with these kinetics; ``cap_c`` as in :class:`LethalityModel`."""
-        return LethalityModel(d_ref_s=self.d_ref_s, t_ref_c=self.t_ref_c, z_c=self.z_c, cap_c=cap_c)
+        return LethalityModel(d_ref_s=self.d_ref_s, t_ref_c=self.t_ref_c, z_k=self.z_k, cap_c=cap_c)
 
 
 _FSIS_1999 = (
@@ -63,7 +63,7 @@ PRESETS: Mapping[str, OrganismPreset] = MappingProxyType(
             matrix="cooked beef",
             d_ref_s=103.6,
             t_ref_c=60.0,
-            z_c=5.586,
+            z_k=5.586,
             target_log_reduction=7.0,
             source=(
                 f"{_FSIS_1999}, 7-log Salmonella column, 54.4-69.4 degC rows (the 0 s row at "
@@ -76,7 +76,7 @@ PRESETS: Mapping[str, OrganismPreset] = MappingProxyType(
             matrix="ground beef",
             d_ref_s=101.9,
             t_ref_c=60.0,
-            z_c=5.61,
+            z_k=5.61,
             target_log_reduction=6.5,
             source=(
                 "Goodfellow, S. J. and Brown, W. L. (1978), J. Food Prot. 41:598, D values at "
@@ -90,7 +90,7 @@ PRESETS: Mapping[str, OrganismPreset] = MappingProxyType(
             matrix="ground beef, 90 % lean",
             d_ref_s=156.4,
             t_ref_c=60.0,
-            z_c=6.0,
+            z_k=6.0,
             target_log_reduction=5.0,
             source=(
                 "Juneja, V. K., Snyder, O. P. and Marmer, B. S. (1997), Int. J. Food "
@@ -105,7 +105,7 @@ PRESETS: Mapping[str, OrganismPreset] = MappingProxyType(
             matrix="ground beef, 2 % fat",
             d_ref_s=68.7,
             t_ref_c=60.0,
-            z_c=4.60,
+            z_k=4.60,
             target_log_reduction=5.0,
             source=(
                 "Line, J. E. et al. (1991), J. Food Prot. 54:762, D values at 51.7, 57.2 and "
@@ -118,7 +118,7 @@ PRESETS: Mapping[str, OrganismPreset] = MappingProxyType(
             matrix="ground beef, 30.5 % fat",
             d_ref_s=104.2,
             t_ref_c=60.0,
-            z_c=4.70,
+            z_k=4.70,
             target_log_reduction=5.0,
             source=(
                 "Line, J. E. et al. (1991), J. Food Prot. 54:762, D values at 51.7, 57.2 and "

@@ -96,7 +96,7 @@ class PhaseBlock:
         ds = -ca.mtimes(dmat, q) / model.e_scale
         lm = model.lethality
         t_lr = model.lethality_temps(t)
-        rate = ca.power(10.0, (ca.fmin(t_lr, lm.cap_c) - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
+        rate = ca.power(10.0, (ca.fmin(t_lr, lm.cap_c) - lm.t_ref_c) / lm.z_k) / lm.d_ref_s
         f = ca.Function("f", [s, time_s], [ds, rate, t_lr])
         self.c, self.b = radau_coefficients(d)
         tau = np.concatenate([[0.0], np.array(ca.collocation_points(d, "radau"))])

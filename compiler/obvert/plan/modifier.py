@@ -9,7 +9,7 @@ methodology for real-time optimization", Ind. Eng. Chem. Res. 48:6022-6033):
 per scenario and per rule: column 0 in log10 of the log reduction, column 1 in kelvin on
 the removal temperature. The model's log reduction must reach ``target * 10**shift[0]``
 and its coldest point ``floor + shift[1]``. With ``slope = 0`` it is a constant
-(zero-order) correction. :mod:`obvert.table.calibrate` fits it against the reference.
+(zero-order) correction. :mod:`obvert.certify.calibrate` fits it against the reference.
 """
 
 from __future__ import annotations

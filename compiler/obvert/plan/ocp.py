@@ -16,31 +16,13 @@ from dataclasses import dataclass
 import casadi as ca
 import numpy as np
 
+from obvert.food.criteria import Requirement
 from obvert.plan._nlp import DWELL_SCALE_S, PlanError, Transcription, phase_specs
 from obvert.plan.collocation import Grid, PhaseBlock
 from obvert.plan.modifier import Modifier
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
-
-
-@dataclass(frozen=True)
-class Requirement:
-    """What the food must reach by removal.
-
-    Attributes
-    ----------
-    log_reduction : float
-        Log reduction every point must reach, log10 units.
-    min_temp_c : float | None
-        Temperature every point must be at or above at removal, degC (None: no such rule).
-    rest_s : float
-        Carry-over time after removal credited to lethality, s (0: no credit).
-    """
-
-    log_reduction: float
-    min_temp_c: float | None = None
-    rest_s: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -260,7 +242,7 @@ class Planner:
         converged solution wins. A start that fails is skipped; if all fail, PlanError.
 
         ``modifier`` corrects the targets per scenario (:mod:`obvert.plan.modifier`, fitted
-        by :mod:`obvert.table.calibrate`): the model's log reduction must reach the target
+        by :mod:`obvert.certify.calibrate`): the model's log reduction must reach the target
         times ``10**shift[k, 0]`` and its removal temperature the floor plus ``shift[k, 1]``
         kelvin, the shift being affine in the dwells. With ``warm`` the seeds
         are taken to be near the optimum: IPOPT starts from them alone, and from the

@@ -52,8 +52,3 @@ def quantize(schedule: Schedule, tick_s: float, min_gap_s: float, flip_air_s: fl
         out.append(Event(ev.kind, ticks * tick_s))
         prev, prev_kind = ticks, ev.kind
     return Schedule(tuple(out))
-
-
-def to_ticks(at_s: float, tick_s: float) -> int:
-    """Whole ticks of a quantised time (s)."""
-    return round(at_s / tick_s)

@@ -11,10 +11,10 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from obvert.thermal.boundary import FaceBC, Phase
+from obvert.firmware.contract import EVENT_CODES
+from obvert.thermal.boundary import Phase, Surroundings
 
-#: Event kinds and their codes in emitted tables. Codes are part of the table format.
-EVENT_CODES: dict[str, int] = {"done": 0, "flip": 1, "platen_close": 2, "platen_open": 3}
+__all__ = ["EVENT_CODES", "Event", "Schedule", "Surroundings", "phases_for"]
 
 
 @dataclass(frozen=True)
@@ -35,28 +35,6 @@ class Event:
     def __post_init__(self) -> None:
         if self.kind not in EVENT_CODES:
             raise ValueError(f"event kind {self.kind!r}: allowed {sorted(EVENT_CODES)}")
-
-
-@dataclass(frozen=True)
-class Surroundings:
-    """What each face of the food sees on a given appliance.
-
-    Attributes
-    ----------
-    plate : FaceBC
-        The lower plate in contact.
-    air : FaceBC
-        Room air with radiation.
-    platen : FaceBC | None
-        The upper platen when closed, if the appliance has one.
-    flip_air_s : float
-        Time the food spends in the air during a flip, s.
-    """
-
-    plate: FaceBC
-    air: FaceBC
-    platen: FaceBC | None
-    flip_air_s: float
 
 
 @dataclass(frozen=True)

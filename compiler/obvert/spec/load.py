@@ -272,7 +272,7 @@ def _safety(sec: _Section) -> SafetySpec:
                     sec._p(key), sec.data[key], "nothing when an organism preset is named"
                 )
         p = PRESETS[organism]
-        d_ref, t_ref, z, source = p.d_ref_s, p.t_ref_c, p.z_c, p.source
+        d_ref, t_ref, z, source = p.d_ref_s, p.t_ref_c, p.z_k, p.source
         default_lr: object = p.target_log_reduction
         name = f"{organism}: {p.organism} in {p.matrix}"
     else:
@@ -309,8 +309,10 @@ def _planning(sec: _Section | None) -> PlanningSpec:
         lethality_points=_lethality_points(sec),
         elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
         reference_cells=sec.integer("reference_cells", 40, 2000, 200),
-        reference_dt_s=sec.number("reference_dt_s", 0.005, 1.0, 0.05),
-        correction_rounds=sec.integer("correction_rounds", 0, 8, 3),
+        reference_step_s=_range_check(
+            sec._p("reference_step"), sec.qty("reference_step", "time", "50 ms"), 0.005, 1.0, "s"
+        ),
+        calibration_rounds=sec.integer("calibration_rounds", 0, 8, 3),
     )
     sec.done()
     return out

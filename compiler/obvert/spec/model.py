@@ -144,7 +144,7 @@ class SafetySpec:
         D value at ``t_ref_c``, s.
     t_ref_c : float
         Reference temperature, degC.
-    z_c : float
+    z_k : float
         z value, K.
     min_temp_c : float | None
         Temperature every point must be at or above at removal, degC.
@@ -159,7 +159,7 @@ class SafetySpec:
     log_reduction: float
     d_ref_s: float
     t_ref_c: float
-    z_c: float
+    z_k: float
     min_temp_c: float | None
     carry_over_s: float
     lethality_cap_c: float
@@ -181,11 +181,11 @@ class PlanningSpec:
         Collocation elements per phase, -.
     reference_cells : int
         Finite-volume cells of the reference model, -.
-    reference_dt_s : float
+    reference_step_s : float
         Largest time step of the reference model, s.
-    correction_rounds : int
+    calibration_rounds : int
         Largest number of rounds of the reference-calibrated correction of each plan
-        (:mod:`obvert.table.calibrate`), -; 0: plans are the reduced model's alone.
+        (:mod:`obvert.certify.calibrate`), -; 0: plans are the reduced model's alone.
     """
 
     flip_cost_s: float
@@ -193,8 +193,8 @@ class PlanningSpec:
     lethality_points: int
     elements_per_phase: int
     reference_cells: int
-    reference_dt_s: float
-    correction_rounds: int = 3
+    reference_step_s: float
+    calibration_rounds: int = 3
 
 
 @dataclass(frozen=True)

@@ -1,1 +1,16 @@
-"""Obvert table package."""
+"""The cook table: the grid sweep, the cells, and the canonical manifest of the result."""
+
+from obvert.table.compile import CellCertificationError, compile_table
+from obvert.table.manifest import manifest
+from obvert.table.model import Candidate, CookTable, Node
+from obvert.table.sweep import BuildError
+
+__all__ = [
+    "BuildError",
+    "Candidate",
+    "CellCertificationError",
+    "CookTable",
+    "Node",
+    "compile_table",
+    "manifest",
+]

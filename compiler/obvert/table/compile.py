@@ -1,8 +1,10 @@
 """The whole table compilation: plan and certify the nodes, then certify every cell.
 
-``compile_table(spec, rules) -> CookTable`` is pure (no disk). Node planning and
-certification are in :mod:`obvert.table.build`; the cell-level certification for each
-lookup rule the targets use is in :mod:`obvert.table.cells`.
+``compile_table(spec, rules) -> CookTable`` is pure (no disk). The spec is turned into
+physics once (:func:`obvert.problem.problem_of`); node planning and certification are in
+:mod:`obvert.table.sweep`; the cells of each lookup rule the targets use are certified by
+:mod:`obvert.certify.cells` against the firmware's own lookup (:mod:`obvert.firmware.lookup`)
+on the node entries exactly as they will be emitted, so what is certified is what ships.
 """
 
 from __future__ import annotations
@@ -10,55 +12,19 @@ from __future__ import annotations
 import multiprocessing
 from collections.abc import Sequence
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import replace
-from functools import lru_cache
 from typing import Any
 
+from obvert.certify.cells import CellError, CellResult, bilinear_cell, corner_cells, trial_cells
+from obvert.firmware.contract import RULES
+from obvert.problem.model import Problem, problem_of
 from obvert.spec.model import Spec
-from obvert.table.build import (
-    CookTable,
-    Progress,
-    build,
-    lethality_of,
-    requirement_of,
-    surroundings,
-)
-from obvert.table.cells import CellError, CellResult, bilinear_cell, corner_cells, trial_cells
-from obvert.table.certify import Case
-from obvert.table.manifest import manifest
-from obvert.table.scenarios import Scenario, scenarios
-from obvert.thermal.reference import ReferenceSettings
-
-RULES = ("corner", "bilinear")
+from obvert.table.manifest import node_entries
+from obvert.table.model import CookTable
+from obvert.table.sweep import Progress, build
 
 
 class CellCertificationError(RuntimeError):
     """A cell failed certification for its lookup rule; nothing may be emitted."""
-
-
-@lru_cache(maxsize=8)
-def _scenario_setup(spec: Spec) -> tuple[tuple[Scenario, ...], Any, Any, ReferenceSettings]:
-    """Scenarios (property tables built once, so batched runs share them) and settings."""
-    env, leth, req = surroundings(spec), lethality_of(spec), requirement_of(spec)
-    ref = ReferenceSettings(spec.planning.reference_cells, spec.planning.reference_dt_s)
-    return scenarios(spec, env), leth, req, ref
-
-
-def cases_at(spec: Spec, thickness_m: float, start_temp_c: float) -> list[Case]:
-    """Reference cases of every tolerance scenario behind a *measured* point."""
-    scens, leth, req, ref = _scenario_setup(spec)
-    return [
-        Case(
-            s.table,
-            thickness_m + s.thickness_offset_m,
-            start_temp_c + s.start_offset_k,
-            s.env,
-            leth,
-            req,
-            ref,
-        )
-        for s in scens
-    ]
 
 
 def compile_table(
@@ -68,6 +34,17 @@ def compile_table(
     jobs: int = 1,
 ) -> CookTable:
     """Plan and certify every node, then every cell for each lookup rule in ``rules``.
+
+    Parameters
+    ----------
+    spec : Spec
+        A checked spec.
+    rules : sequence of str
+        Lookup rules whose cells are certified (``corner`` always is).
+    progress : callable, optional
+        Called with a one-line message as work proceeds.
+    jobs : int
+        Worker processes; the result does not depend on it.
 
     Raises
     ------
@@ -82,23 +59,27 @@ def compile_table(
         if r not in RULES:
             raise ValueError(f"rules: {r!r} is not a lookup rule; allowed {list(RULES)}")
     say = progress or (lambda _msg: None)
-    table = build(spec, progress, jobs=jobs)
-    base = manifest(table)
-    cells: dict[str, tuple[CellResult, ...]] = {"corner": tuple(corner_cells(base))}
+    problem = problem_of(spec)
+    nodes = build(problem, progress, jobs=jobs)
+    entries = node_entries(spec, nodes)
+    cells: dict[str, tuple[CellResult, ...]] = {"corner": tuple(corner_cells(entries))}
     if "bilinear" in rules and cells["corner"]:
-        cells["bilinear"] = _bilinear(spec, base, say, jobs)
-    return replace(table, cells=tuple(sorted(cells.items())))
+        cells["bilinear"] = _bilinear(problem, entries, say, jobs)
+    return CookTable(spec, nodes, tuple(sorted(cells.items())))
 
 
-def _bilinear(spec: Spec, base: dict[str, Any], say: Progress, jobs: int) -> tuple[CellResult, ...]:
-    trial = trial_cells(base)
+def _bilinear(
+    problem: Problem, entries: dict[str, Any], say: Progress, jobs: int
+) -> tuple[CellResult, ...]:
+    trial = trial_cells(entries)
     say(f"certifying {len(trial)} cells for the bilinear rule")
     if jobs <= 1:
-        out = [_cell_job(spec, base, c) for c in trial]
+        out = [_cell_job(problem, entries, c) for c in trial]
     else:
         ctx = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=min(jobs, len(trial)), mp_context=ctx) as pool:
-            out = list(pool.map(_cell_job, [spec] * len(trial), [base] * len(trial), trial))
+        n = len(trial)
+        with ProcessPoolExecutor(max_workers=min(jobs, n), mp_context=ctx) as pool:
+            out = list(pool.map(_cell_job, [problem] * n, [entries] * n, trial))
     for c in out:
         say(
             f"cell ({c.ci}, {c.cj}): {c.rule}, pad {c.done_pad_ticks} ticks, "
@@ -107,8 +88,8 @@ def _bilinear(spec: Spec, base: dict[str, Any], say: Progress, jobs: int) -> tup
     return tuple(out)
 
 
-def _cell_job(spec: Spec, base: dict[str, Any], cell: CellResult) -> CellResult:
+def _cell_job(problem: Problem, entries: dict[str, Any], cell: CellResult) -> CellResult:
     try:
-        return bilinear_cell(base, cell, lambda x, t: cases_at(spec, x, t))
+        return bilinear_cell(entries, cell, problem.cases_at)
     except CellError as exc:
         raise CellCertificationError(str(exc)) from None

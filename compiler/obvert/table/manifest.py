@@ -4,26 +4,18 @@ from __future__ import annotations
 
 from typing import Any
 
-from obvert import CAUTION, __version__
-from obvert.emit import canonical_sha256
-from obvert.plan.quantize import to_ticks
-from obvert.plan.schedule import EVENT_CODES
-from obvert.spec.model import ToleranceSpec
-from obvert.table.build import CookTable, Node
-from obvert.table.cells import cell_dict
-
-FORMAT_VERSION = 1
-
-LOOKUP_RULE = {
-    "name": "conservative_corner",
-    "description": (
-        "For a measured thickness x and start temperature t inside the envelope, take "
-        "i = the smallest index with thickness_m[i] >= x and j = the largest index with "
-        "start_temp_c[j] <= t, and run node i * n_start_temp + j: the thickest and coldest "
-        "corner of the cell that holds (x, t). A value on a node uses that node. Outside "
-        "the envelope, or NaN, no schedule is returned."
-    ),
-}
+from obvert.about import CAUTION, __version__
+from obvert.certify.cells import cell_dict
+from obvert.firmware.canonical import canonical_sha256
+from obvert.firmware.contract import (
+    CORNER_RULE_NAME,
+    EVENT_CODES,
+    FORMAT_VERSION,
+    RULE_TEXT,
+    to_ticks,
+)
+from obvert.spec.model import Spec, ToleranceSpec
+from obvert.table.model import CookTable, Node
 
 #: Digits kept for times (s) and log reductions; fixed so builds are byte-identical.
 _DIGITS = 6
@@ -54,7 +46,7 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "planned_cook_time_s": _r(node.planned_cook_time_s),
         "model_planned_s": _r_opt(node.model_planned_s),
         "calibration_note": node.calibration_note,
-        "correction_s": _r(node.correction_s),
+        "extension_s": _r(node.extension_s),
         "min_log_reduction": _r(node.min_log_reduction),
         "margin_log": _r(node.margin_log),
         "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
@@ -67,7 +59,7 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
             {
                 "flips": c.flips,
                 "planned_cook_time_s": _r_opt(c.planned_cook_time_s),
-                "corrected_cook_time_s": _r_opt(c.corrected_cook_time_s),
+                "calibrated_cook_time_s": _r_opt(c.calibrated_cook_time_s),
                 "note": c.note,
                 "sequence": list(c.sequence),
             }
@@ -112,12 +104,34 @@ def _model_gap(nodes: list[dict[str, Any]]) -> dict[str, Any] | None:
 
 
 def manifest(table: CookTable) -> dict[str, Any]:
-    """Canonical, JSON-safe description of ``table`` (schema in docs/table-format.md)."""
-    spec = table.spec
+    """Canonical, JSON-safe description of ``table`` (schema in docs/table-format.md).
+
+    Parameters
+    ----------
+    table : CookTable
+        A compiled table.
+
+    Returns
+    -------
+    dict
+        The manifest every output format is a view of.
+    """
+    out = node_entries(table.spec, table.nodes)
+    if table.cells:
+        out["cells"] = {rule: [cell_dict(c) for c in cells] for rule, cells in table.cells}
+    return out
+
+
+def node_entries(spec: Spec, nodes: tuple[Node, ...]) -> dict[str, Any]:
+    """The manifest of certified nodes before their cells are certified.
+
+    The cell certification runs the firmware lookup on exactly this, so that what is
+    certified is what is emitted.
+    """
     spec_dict = spec.to_dict()
     tick = spec.appliance.tick_s
-    nodes = [_node_dict(n, tick) for n in table.nodes]
-    margins = [n["margin_log"] for n in nodes]
+    rows = [_node_dict(n, tick) for n in nodes]
+    margins = [n["margin_log"] for n in rows]
     s = spec.safety
     out: dict[str, Any] = {
         "format_version": FORMAT_VERSION,
@@ -135,30 +149,28 @@ def manifest(table: CookTable) -> dict[str, Any]:
             "thickness_m": [_r(spec.grid.thickness_m[0]), _r(spec.grid.thickness_m[-1])],
             "start_temp_c": [_r(spec.grid.start_temp_c[0]), _r(spec.grid.start_temp_c[-1])],
         },
-        "lookup_rule": dict(LOOKUP_RULE),
+        "lookup_rule": {"name": CORNER_RULE_NAME, "description": RULE_TEXT["corner"]},
         "event_kinds": dict(EVENT_CODES),
-        "max_events": max(len(n["events"]) for n in nodes),
+        "max_events": max(len(n["events"]) for n in rows),
         "safety": {
             "target_log_reduction": s.log_reduction,
             "organism": s.organism,
             "source": s.source,
             "d_ref_s": s.d_ref_s,
             "t_ref_c": s.t_ref_c,
-            "z_c": s.z_c,
+            "z_k": s.z_k,
             "min_temp_c": s.min_temp_c,
             "carry_over_s": s.carry_over_s,
             "lethality_cap_c": s.lethality_cap_c,
         },
-        "nodes": nodes,
+        "nodes": rows,
         "summary": {
             "smallest_margin_log": min(margins),
-            "nodes_corrected": sum(1 for n in nodes if n["correction_s"] > 0.0),
-            "longest_cook_time_s": max(n["cook_time_s"] for n in nodes),
-            "price_of_robustness": _price(nodes),
-            "reduced_model_gap": _model_gap(nodes),
+            "nodes_extended": sum(1 for n in rows if n["extension_s"] > 0.0),
+            "longest_cook_time_s": max(n["cook_time_s"] for n in rows),
+            "price_of_robustness": _price(rows),
+            "reduced_model_gap": _model_gap(rows),
         },
         "tolerances": _tolerances(spec.tolerances),
     }
-    if table.cells:
-        out["cells"] = {rule: [cell_dict(c) for c in cells] for rule, cells in table.cells}
     return out

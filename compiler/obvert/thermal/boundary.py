@@ -79,3 +79,25 @@ class Phase:
     face0: FaceBC
     face1: FaceBC
     flip_before: bool = False
+
+
+@dataclass(frozen=True)
+class Surroundings:
+    """What each face of the food sees on a given appliance.
+
+    Attributes
+    ----------
+    plate : FaceBC
+        The lower plate in contact.
+    air : FaceBC
+        Room air with radiation.
+    platen : FaceBC | None
+        The upper platen when closed, if the appliance has one.
+    flip_air_s : float
+        Time the food spends in the air during a flip, s.
+    """
+
+    plate: FaceBC
+    air: FaceBC
+    platen: FaceBC | None
+    flip_air_s: float

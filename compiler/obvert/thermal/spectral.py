@@ -271,7 +271,7 @@ class SpectralModel:
         ds = -ca.mtimes(ca.DM(self.d), q) / self.e_scale
         lm = self.lethality
         t_cap = ca.fmin(self.lethality_temps(temp), lm.cap_c)
-        dlr = ca.power(10.0, (t_cap - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
+        dlr = ca.power(10.0, (t_cap - lm.t_ref_c) / lm.z_k) / lm.d_ref_s
         return ca.vertcat(ds, dlr)
 
     def flip(self, state: ca.MX | NDArray[np.float64]) -> ca.MX:

@@ -6,7 +6,7 @@
  * Target profile: c99_fixed (header-only C99 table, integer-only lookup on
  * thickness in um and start temperature in 0.01 degC)
  * Spec sha256:     1d3c4a48aa72de9682e07f2cec818205671c33753b4db5c692c7dceaeee1186e
- * Manifest sha256: 73d59f42a824153a6425a41bd702152ac4c32e9fbef2659f4d04213502b2c2a1
+ * Manifest sha256: bd3dd45135e52e846b4ab769c807012091f55d2d54862bc19b4905653fd8cdc6
  *
  * FOOD-SAFETY CAUTION:
  * Synthetic table for tests only: not a cook program. A real table must be
@@ -35,7 +35,7 @@ extern "C" {
 
 /* Table format version. Define SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION before including this
  * header to refuse a table of another format at compile time. */
-#define SYNTHETIC_GRILL_FORMAT_VERSION 1
+#define SYNTHETIC_GRILL_FORMAT_VERSION 2
 #if defined(SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION) && SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION != SYNTHETIC_GRILL_FORMAT_VERSION
 #error "synthetic_grill: table format version differs from SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION"
 #endif
@@ -143,18 +143,18 @@ static const uint32_t synthetic_grill_event_ticks[][SYNTHETIC_GRILL_MAX_EVENTS] 
 
 /* Certified margin over the target log reduction per node, 0.001 log10, rounded down. */
 static const int32_t synthetic_grill_margin_mlog[] = {
-    -63, /* node 0 */
-    62, /* node 1 */
-    187, /* node 2 */
-    312, /* node 3 */
-    437, /* node 4 */
-    562, /* node 5 */
-    687, /* node 6 */
-    812, /* node 7 */
-    937, /* node 8 */
-    1062, /* node 9 */
-    1187, /* node 10 */
-    1312, /* node 11 */
+    62, /* node 0 */
+    187, /* node 1 */
+    312, /* node 2 */
+    437, /* node 3 */
+    562, /* node 4 */
+    687, /* node 5 */
+    812, /* node 6 */
+    937, /* node 7 */
+    1062, /* node 8 */
+    1187, /* node 9 */
+    1312, /* node 10 */
+    1437, /* node 11 */
 };
 
 /* Bytes of const table data. */

@@ -1,7 +1,7 @@
 """Table axes as the firmware stores them (binary32 mm and degC, or int32 um and 0.01 degC).
 
 The axis builders are the single source of the values the emitter writes and the Python
-lookup compares against (see :mod:`obvert.table.lookup`).
+lookup compares against (see :mod:`obvert.firmware.lookup`).
 """
 
 from __future__ import annotations

@@ -29,7 +29,7 @@ def summary(m: dict[str, Any]) -> str:
         ev = ", ".join(f"{e['kind']}@{e['at_s']:.1f}" for e in n["events"])
         lines.append(
             f"{n['thickness_m'] * 1e3:8.2f} {n['start_temp_c']:8.1f} {n['flips']:5d} "
-            f"{n['cook_time_s']:8.1f} {n['planned_cook_time_s']:8.1f} {n['correction_s']:6.1f} "
+            f"{n['cook_time_s']:8.1f} {n['planned_cook_time_s']:8.1f} {n['extension_s']:6.1f} "
             f"{n['margin_log']:10.3f} {_opt(n['bounds_s'].get('fast_flip_limit'))} "
             f"{_opt(n['bounds_s'].get('two_sided_contact'))}  {ev}"
         )
@@ -71,11 +71,11 @@ def summary(m: dict[str, Any]) -> str:
             )
     lines.append(
         "plan s: optimum before ticks (reduced model, corrected against the reference unless "
-        "correction_rounds = 0); fix s: extension needed on the reference "
+        "calibration_rounds = 0); fix s: extension needed on the reference "
         "model; ff lim s / 2side s: fast-flip and two-sided-contact limits (reduced model)"
     )
     lines.append(
         f"smallest margin {s['smallest_margin_log']:.3f} log; "
-        f"{s['nodes_corrected']} node(s) extended by certification"
+        f"{s['nodes_extended']} node(s) extended by certification"
     )
     return "\n".join(lines)

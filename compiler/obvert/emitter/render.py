@@ -3,7 +3,7 @@
 Python decides which files exist (the target's ``outputs``); Jinja2 templates from package
 ``obvert.templates`` lay them out. The environment is strict: an undefined name is an
 error, and only strings may reach the output, so every number goes through a filter of
-:mod:`obvert.emit.filters`.
+:mod:`obvert.emitter.filters`.
 """
 
 from __future__ import annotations
@@ -15,11 +15,12 @@ from typing import Any
 
 import jinja2
 
-from obvert.emit.canonical import CanonicalError, canonical_json
-from obvert.emit.context import c_context
-from obvert.emit.filters import FILTERS
-from obvert.emit.profile import OutputSpec, TargetProfile
-from obvert.emit.validate import EmitError, check_manifest
+from obvert.emitter.context import c_context
+from obvert.emitter.errors import EmitError
+from obvert.emitter.filters import FILTERS
+from obvert.emitter.profile import OutputSpec, TargetProfile
+from obvert.firmware.canonical import CanonicalError, canonical_json
+from obvert.firmware.validate import ManifestError, check_manifest
 
 __all__ = ["emit", "environment", "render_template"]
 
@@ -85,7 +86,7 @@ def _render_one(spec: OutputSpec, manifest: dict[str, Any], target: TargetProfil
         try:
             return canonical_json(manifest)
         except CanonicalError as exc:
-            raise EmitError(f"manifest is not canonical JSON: {exc}") from None
+            raise ManifestError(f"manifest is not canonical JSON: {exc}") from None
     if spec.template is None:  # OutputSpec guarantees one of the two
         raise EmitError(f"output {spec.filename!r} has neither template nor serializer")
     text = render_template(spec.template, _context(spec, manifest, target))
@@ -100,7 +101,7 @@ def emit(manifest: dict[str, Any], target: TargetProfile) -> dict[str, bytes]:
     manifest : dict
         Canonical manifest of a cook-program table (plain JSON-safe values).
     target : TargetProfile
-        Target profile, e.g. from :func:`obvert.emit.load_target`.
+        Target profile, e.g. from :func:`obvert.emitter.load_target`.
 
     Returns
     -------
@@ -118,7 +119,7 @@ def emit(manifest: dict[str, Any], target: TargetProfile) -> dict[str, bytes]:
     try:
         canonical_json(manifest)
     except CanonicalError as exc:
-        raise EmitError(f"manifest is not canonical JSON: {exc}") from None
+        raise ManifestError(f"manifest is not canonical JSON: {exc}") from None
     table = manifest["table"]["name"]
     names = {"table": table, "prefix": target.prefix_for(table)}
     files: dict[str, bytes] = {}

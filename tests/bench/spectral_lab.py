@@ -248,7 +248,7 @@ class FilteredSpectralModel(SpectralModel):
 
 def _rate(lm: LethalityModel, temp: ca.MX) -> ca.MX:
     """Lethality rate at temperatures ``temp`` (degC), log10 per s."""
-    return ca.power(10.0, (ca.fmin(temp, lm.cap_c) - lm.t_ref_c) / lm.z_c) / lm.d_ref_s
+    return ca.power(10.0, (ca.fmin(temp, lm.cap_c) - lm.t_ref_c) / lm.z_k) / lm.d_ref_s
 
 
 def smoothed_table(table: PropertyTable, sigma_c: float) -> PropertyTable:

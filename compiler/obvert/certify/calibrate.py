@@ -33,10 +33,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from obvert.certify.node import judge
 from obvert.plan.modifier import Modifier
 from obvert.plan.ocp import PlanError, Planner, PlanResult
 from obvert.plan.schedule import Schedule
-from obvert.table.certify import Case, judge
+from obvert.problem.model import Case
 
 #: A round that moves no dwell by more than this fraction of the cook time ends the correction.
 RELATIVE_TOLERANCE = 1e-4

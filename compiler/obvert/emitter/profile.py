@@ -125,7 +125,7 @@ class TargetProfile:
         Firmware timer tick the target runs at, s; None to accept the table's tick.
     lookup : str
         Lookup rule of the generated C: ``"corner"`` (conservative corner) or
-        ``"bilinear"`` (interpolation in the cell, see ``obvert.table.lookup``).
+        ``"bilinear"`` (interpolation in the cell, see ``obvert.firmware.lookup``).
     source : str
         Where the profile was read from (file path or ``builtin:<name>``), for messages.
     """

@@ -1,6 +1,6 @@
 """Judge many schedules at once on the reference model (batched :func:`certify.judge`).
 
-Each schedule is turned into phases exactly as :func:`obvert.table.certify.judge` does
+Each schedule is turned into phases exactly as :func:`obvert.certify.node.judge` does
 (``phases_for`` with the credited carry-over as a last rest phase), and all of them are simulated
 by :func:`obvert.thermal.batch.simulate_many`, grouped by food, kinetics and discretisation.
 The verdict follows the same rule: the smallest log reduction at the end (after the rest, if
@@ -15,8 +15,9 @@ import re
 from collections.abc import Sequence
 from concurrent.futures import ProcessPoolExecutor
 
+from obvert.certify.node import Verdict
 from obvert.plan.schedule import Schedule, phases_for
-from obvert.table.certify import Case, Verdict
+from obvert.problem.model import Case
 from obvert.thermal.batch import CookCase, ReferenceSummary, simulate_many
 
 

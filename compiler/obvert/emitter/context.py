@@ -12,18 +12,19 @@ import textwrap
 from fractions import Fraction
 from typing import Any
 
-from obvert.emit.canonical import canonical_sha256
-from obvert.emit.cells import (
+from obvert.emitter.cells import (
     bilinear_context,
     cell_bytes,
     corner_pads,
     envelope_lines,
     uses_cells,
 )
-from obvert.emit.filters import INT32_MAX, INT32_MIN, num
-from obvert.emit.profile import TargetProfile
-from obvert.emit.validate import EmitError
-from obvert.table.lookup import (
+from obvert.emitter.errors import EmitError
+from obvert.emitter.filters import INT32_MAX, INT32_MIN, num
+from obvert.emitter.profile import TargetProfile
+from obvert.firmware.canonical import canonical_sha256
+from obvert.firmware.contract import RULE_TEXT
+from obvert.firmware.lookup import (
     LookupStatus,
     start_temp_axis_cc,
     start_temp_axis_f32,
@@ -156,20 +157,10 @@ def _wrap(text: str) -> list[str]:
     return textwrap.wrap(" ".join(str(text).split()), _WRAP) or [""]
 
 
-_BILINEAR_RULE = (
-    "bilinear: the cell of the query (ci, cj) is located as for the conservative corner; "
-    "each event time is interpolated between the cell's four corner nodes with integer "
-    "weights in units of 65536 and rounded up to a whole tick; a cell certified for the "
-    "corner rule only, or whose corners differ in their event kinds, uses the conservative "
-    "corner (thickest, coldest corner node). The cell's certified done pad is added to done "
-    "(and to a platen opening at the done tick)."
-)
-
-
 def _rule_lines(manifest: dict[str, Any], target: TargetProfile) -> list[str]:
     rule = manifest["lookup_rule"]
     if target.lookup == "bilinear":
-        return _wrap(f"Lookup rule of this target: {_BILINEAR_RULE}")
+        return _wrap(f"Lookup rule of this target: {RULE_TEXT['bilinear']}")
     return _wrap(f"Lookup rule: {rule['name']}: {rule['description']}")
 
 
@@ -204,7 +195,7 @@ def _banner(
         *_wrap(
             f"Safety target: {num(safety['target_log_reduction'])} log10 reduction of "
             f"{safety['organism']} (D {num(safety['d_ref_s'])} s at {num(safety['t_ref_c'])} "
-            f"degC, z {num(safety['z_c'])} K; source: {safety['source']}); {min_temp}."
+            f"degC, z {num(safety['z_k'])} K; source: {safety['source']}); {min_temp}."
         ),
     ]
     if uses_cells(manifest, target):
@@ -249,7 +240,7 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
     Parameters
     ----------
     manifest : dict
-        A manifest already checked by :func:`obvert.emit.validate.check_manifest`.
+        A manifest already checked by :func:`obvert.firmware.validate.check_manifest`.
     target : TargetProfile
         The C target.
 

@@ -8,7 +8,7 @@ A cell is the rectangle between four neighbouring nodes. For each lookup rule:
   certificate, taken at the worst tolerance corner, covers the whole cell; the cell's
   smallest margin is the node's.
 * ``bilinear``: a query runs the event times interpolated between the four corners (exact
-  integer rule in :mod:`obvert.table.lookup`). There is no such order for an interpolated
+  integer rule in :mod:`obvert.firmware.lookup`). There is no such order for an interpolated
   schedule, so the cell is sampled: edge midpoints, centre and seeded random points, each
   with the schedule the float *and* the fixed-point lookup return, each simulated on the
   reference model in every tolerance scenario (measured thickness plus the thickness error,
@@ -28,14 +28,15 @@ from typing import Any
 
 import numpy as np
 
-from obvert.plan.schedule import EVENT_CODES, Event, Schedule
-from obvert.table.certify import Case, Verdict
-from obvert.table.judge_batch import judge_many
-from obvert.table.lookup import lookup_f32, lookup_fixed
+from obvert.certify.batch import judge_many
+from obvert.certify.node import Verdict
+from obvert.firmware.contract import EVENT_KINDS
+from obvert.firmware.lookup import lookup_f32, lookup_fixed
+from obvert.plan.schedule import Event, Schedule
+from obvert.problem.model import Case
 
 #: Random points per cell, on top of the four edge midpoints and the centre.
 RANDOM_POINTS = 4
-_KINDS = {v: k for k, v in EVENT_CODES.items()}
 
 #: ``(measured thickness m, measured start degC) -> reference cases of every scenario``.
 CasesAt = Callable[[float, float], Sequence[Case]]
@@ -76,7 +77,7 @@ class CellResult:
 
 def schedule_of(events: Sequence[tuple[int, int]], tick_s: float) -> Schedule:
     """Schedule from lookup output ``(kind code, at_ticks)``."""
-    return Schedule(tuple(Event(_KINDS[k], t * tick_s) for k, t in events))
+    return Schedule(tuple(Event(EVENT_KINDS[k], t * tick_s) for k, t in events))
 
 
 def sample_points(

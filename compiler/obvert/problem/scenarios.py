@@ -17,11 +17,10 @@ from __future__ import annotations
 from dataclasses import dataclass, replace
 
 from obvert.food.choi_okos import Composition
-from obvert.food.factory import food_table
 from obvert.food.table import PropertyTable
-from obvert.plan.schedule import Surroundings
+from obvert.problem.foods import food_table
 from obvert.spec.model import FoodSpec, Spec, ToleranceSpec
-from obvert.thermal.boundary import FaceBC
+from obvert.thermal.boundary import FaceBC, Surroundings
 
 
 @dataclass(frozen=True)

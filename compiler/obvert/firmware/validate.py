@@ -11,34 +11,37 @@ import re
 from collections.abc import Mapping
 from typing import Any
 
-from obvert.table.lookup import (
+from obvert.firmware.contract import FORMAT_VERSION
+from obvert.firmware.lookup import (
     RULES,
     cells_for_rule,
     start_temp_axis_f32,
     thickness_axis_mm_f32,
 )
 
-__all__ = ["SUPPORTED_FORMAT_VERSIONS", "EmitError", "check_manifest"]
+__all__ = ["SUPPORTED_FORMAT_VERSIONS", "ManifestError", "check_manifest", "upgrade_manifest"]
 
-SUPPORTED_FORMAT_VERSIONS = (1,)
+SUPPORTED_FORMAT_VERSIONS = (FORMAT_VERSION,)
 _IDENT = re.compile(r"[a-z][a-z0-9_]*\Z")
 _HEX64 = re.compile(r"[0-9a-f]{64}\Z")
-_NODE_NUMBERS = ("margin_log", "min_log_reduction")
+_NODE_NUMBERS = ("margin_log", "min_log_reduction", "extension_s")
+#: A margin this far below zero is rounding of a passing verdict (manifest digits), log10.
+_ROUNDING_LOG = 5e-7
 
 
-class EmitError(ValueError):
+class ManifestError(ValueError):
     """The manifest or the target cannot be emitted; the message names field and value."""
 
 
-def _fail(field: str, value: Any, allowed: str) -> EmitError:
-    return EmitError(f"manifest field {field} = {value!r}: {allowed}")
+def _fail(field: str, value: Any, allowed: str) -> ManifestError:
+    return ManifestError(f"manifest field {field} = {value!r}: {allowed}")
 
 
 def _get(obj: Any, key: str, field: str) -> Any:
     if not isinstance(obj, Mapping):
         raise _fail(field.rsplit(".", 1)[0] or "$", obj, "expected an object")
     if key not in obj:
-        raise EmitError(f"manifest field {field} is missing")
+        raise ManifestError(f"manifest field {field} is missing")
     return obj[key]
 
 
@@ -66,7 +69,7 @@ def _text(obj: Any, key: str, field: str) -> str:
 
 
 def check_manifest(manifest: Any) -> None:
-    """Raise :class:`EmitError` unless ``manifest`` has every field the emitter reads.
+    """Raise :class:`ManifestError` unless ``manifest`` has every field the emitter reads.
 
     Parameters
     ----------
@@ -75,12 +78,19 @@ def check_manifest(manifest: Any) -> None:
 
     Raises
     ------
-    EmitError
+    ManifestError
         Naming the first offending field, its value and what is allowed.
     """
     if not isinstance(manifest, dict):
         raise _fail("$", type(manifest).__name__, "expected a dict")
     version = _get(manifest, "format_version", "format_version")
+    if version in _UPGRADES and not isinstance(version, bool):
+        raise _fail(
+            "format_version",
+            version,
+            f"an older format; this version reads {FORMAT_VERSION}: convert it first with "
+            "obvert.firmware.upgrade_manifest (or `obvert upgrade`)",
+        )
     if isinstance(version, bool) or version not in SUPPORTED_FORMAT_VERSIONS:
         raise _fail("format_version", version, f"supported {list(SUPPORTED_FORMAT_VERSIONS)}")
     generator = _get(manifest, "generator", "generator")
@@ -111,7 +121,7 @@ def _check_axes(manifest: Mapping[str, Any]) -> None:
         thickness_axis_mm_f32(manifest)
         start_temp_axis_f32(manifest)
     except ValueError as exc:
-        raise EmitError(f"manifest field {exc}") from None
+        raise ManifestError(f"manifest field {exc}") from None
 
 
 def _check_info(manifest: Mapping[str, Any]) -> None:
@@ -130,7 +140,7 @@ def _check_info(manifest: Mapping[str, Any]) -> None:
         if low > high:
             raise _fail(f"envelope.{axis}", pair, "expected low <= high")
     safety = _get(manifest, "safety", "safety")
-    for key in ("target_log_reduction", "d_ref_s", "t_ref_c", "z_c"):
+    for key in ("target_log_reduction", "d_ref_s", "t_ref_c", "z_k"):
         _num(safety, key, f"safety.{key}")
     _text(safety, "organism", "safety.organism")
     _text(safety, "source", "safety.source")
@@ -179,8 +189,7 @@ def _check_node(manifest: Mapping[str, Any], node: Any, k: int, n_t: int) -> int
         grid = float(manifest["axes"][axis][want])
         if not math.isclose(value, grid, rel_tol=1e-12, abs_tol=1e-15):
             raise _fail(f"{field}.{axis}", value, f"expected the axis value {grid!r}")
-    for key in _NODE_NUMBERS:
-        _num(node, key, f"{field}.{key}")
+    _check_certificate(manifest, node, field)
     events = _get(node, "events", f"{field}.events")
     if not isinstance(events, list) or not events:
         raise _fail(f"{field}.events", events, "expected a non-empty list ending in 'done'")
@@ -191,6 +200,36 @@ def _check_node(manifest: Mapping[str, Any], node: Any, k: int, n_t: int) -> int
         if is_done != (n == len(events) - 1):
             raise _fail(f"{field}.events[{n}].kind", event["kind"], "'done' must be last, once")
     return len(events)
+
+
+def _check_certificate(manifest: Mapping[str, Any], node: Any, field: str) -> None:
+    """The node's certificate on the reference model: present, and passing."""
+    for key in _NODE_NUMBERS:
+        if not isinstance(node, Mapping) or key not in node:
+            raise _fail(
+                f"{field}.{key}",
+                None,
+                "missing: every node needs its certificate from the reference model "
+                f"({', '.join(_NODE_NUMBERS)})",
+            )
+        _num(node, key, f"{field}.{key}")
+    margin = float(node["margin_log"])
+    if margin < -_ROUNDING_LOG:
+        raise _fail(
+            f"{field}.margin_log",
+            margin,
+            "not certified: the margin over the log-reduction target must be >= 0",
+        )
+    target = float(manifest["safety"]["target_log_reduction"])
+    got = float(node["min_log_reduction"])
+    if got < target - _ROUNDING_LOG:
+        raise _fail(
+            f"{field}.min_log_reduction",
+            got,
+            f"not certified: below the target {target!r} log10",
+        )
+    if float(node["extension_s"]) < 0.0:
+        raise _fail(f"{field}.extension_s", node["extension_s"], "expected >= 0 s")
 
 
 def _check_event(manifest: Mapping[str, Any], event: Any, field: str, previous: int) -> int:
@@ -225,10 +264,16 @@ def _check_cells(manifest: Mapping[str, Any]) -> None:
         try:
             values = cells_for_rule(manifest, rule) or []
         except ValueError as exc:
-            raise EmitError(f"manifest field {exc}") from None
+            raise ManifestError(f"manifest field {exc}") from None
         for k, cell in enumerate(values):
             field = f"cells.{rule}[{k}]"
-            _num(cell, "min_margin_log", f"{field}.min_margin_log")
+            margin = _num(cell, "min_margin_log", f"{field}.min_margin_log")
+            if margin < -_ROUNDING_LOG:
+                raise _fail(
+                    f"{field}.min_margin_log",
+                    margin,
+                    "not certified: the cell's smallest margin must be >= 0",
+                )
             at = _get(cell, "at", f"{field}.at")
             _num(at, "thickness_m", f"{field}.at.thickness_m")
             _num(at, "start_temp_c", f"{field}.at.start_temp_c")
@@ -262,3 +307,68 @@ def _check_tolerances(manifest: Mapping[str, Any]) -> None:
                 raise _fail(field, value, "expected low <= high")
             continue
         _num(tolerances, name, field)
+
+
+def _upgrade_1(manifest: dict[str, Any]) -> dict[str, Any]:
+    """Format 1 to 2: names only (``correction_s``, ``z_c``, ``corrected_cook_time_s``)."""
+    out = dict(manifest)
+    out["format_version"] = 2
+    nodes = []
+    for node in manifest.get("nodes", []):
+        n = dict(node)
+        if "correction_s" in n:
+            n["extension_s"] = n.pop("correction_s")
+        n["candidates"] = [
+            {
+                ("calibrated_cook_time_s" if k == "corrected_cook_time_s" else k): v
+                for k, v in c.items()
+            }
+            for c in n.get("candidates", [])
+        ]
+        nodes.append(n)
+    out["nodes"] = nodes
+    safety = dict(manifest.get("safety", {}))
+    if "z_c" in safety:
+        safety["z_k"] = safety.pop("z_c")
+    out["safety"] = safety
+    summary = dict(manifest.get("summary", {}))
+    if "nodes_corrected" in summary:
+        summary["nodes_extended"] = summary.pop("nodes_corrected")
+    out["summary"] = summary
+    return out
+
+
+_UPGRADES = {1: _upgrade_1}
+
+
+def upgrade_manifest(manifest: Mapping[str, Any]) -> dict[str, Any]:
+    """Convert a manifest of an older format version to the current one.
+
+    Only names change between versions 1 and 2; the certificates are kept as they are and
+    are checked again by :func:`check_manifest` (a negative margin is still refused).
+
+    Parameters
+    ----------
+    manifest : dict
+        A manifest of format version 1 or the current one.
+
+    Returns
+    -------
+    dict
+        The manifest in the current format.
+
+    Raises
+    ------
+    ManifestError
+        An unknown format version.
+    """
+    out = dict(manifest)
+    version = out.get("format_version")
+    while version != FORMAT_VERSION:
+        if isinstance(version, bool) or version not in _UPGRADES:
+            raise _fail(
+                "format_version", version, f"known versions {sorted({*_UPGRADES, FORMAT_VERSION})}"
+            )
+        out = _UPGRADES[version](out)
+        version = out["format_version"]
+    return out

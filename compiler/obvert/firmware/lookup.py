@@ -33,7 +33,7 @@ from typing import Any
 import numpy as np
 from numpy.typing import NDArray
 
-from obvert.table.axes import (
+from obvert.firmware.axes import (
     INT32_MAX,
     INT32_MIN,
     axis_values,
@@ -42,6 +42,7 @@ from obvert.table.axes import (
     thickness_axis_mm_f32,
     thickness_axis_um,
 )
+from obvert.firmware.contract import RULES
 
 __all__ = [
     "RULES",
@@ -61,7 +62,6 @@ __all__ = [
 ]
 
 #: Lookup rules a firmware target can run.
-RULES = ("corner", "bilinear")
 #: Unit weight of the bilinear rule (a weight of 1 is ``WEIGHT_ONE``).
 WEIGHT_ONE = 65536
 _CELL_RULES = {"corner": ("corner",), "bilinear": ("bilinear", "corner")}

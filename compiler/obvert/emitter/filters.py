@@ -1,7 +1,7 @@
 """Jinja2 filters: every number and comment text of an output is formatted here.
 
 Templates only lay out; a value reaches the output only through one of these filters (the
-environment refuses anything that is not already a string, see :mod:`obvert.emit.render`).
+environment refuses anything that is not already a string, see :mod:`obvert.emitter.render`).
 """
 
 from __future__ import annotations

@@ -16,11 +16,9 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from obvert.food.lethality import LethalityModel
-from obvert.food.table import PropertyTable
-from obvert.plan.ocp import Requirement
-from obvert.plan.schedule import Schedule, Surroundings, phases_for
-from obvert.thermal.reference import ReferenceSettings, simulate
+from obvert.plan.schedule import Schedule, phases_for
+from obvert.problem.model import Case
+from obvert.thermal.reference import simulate
 
 
 class CertificationError(RuntimeError):
@@ -56,7 +54,7 @@ class Certificate:
         The schedule to emit (event times are whole ticks), s.
     verdict : Verdict
         Its reference-model outcome.
-    correction_s : float
+    extension_s : float
         How much the done time was extended beyond the planned one, s.
     margin_log : float
         ``verdict.min_log_reduction`` minus the target, log10.
@@ -64,39 +62,8 @@ class Certificate:
 
     schedule: Schedule
     verdict: Verdict
-    correction_s: float
+    extension_s: float
     margin_log: float
-
-
-@dataclass(frozen=True)
-class Case:
-    """One food on one appliance, everything the reference run needs.
-
-    Attributes
-    ----------
-    table : PropertyTable
-        Food properties.
-    thickness_m : float
-        Slab thickness, m.
-    start_temp_c : float
-        Uniform start temperature, degC.
-    env : Surroundings
-        Plate, air, platen.
-    lethality : LethalityModel
-        Kinetics.
-    requirement : Requirement
-        Target.
-    settings : ReferenceSettings
-        Reference discretisation.
-    """
-
-    table: PropertyTable
-    thickness_m: float
-    start_temp_c: float
-    env: Surroundings
-    lethality: LethalityModel
-    requirement: Requirement
-    settings: ReferenceSettings
 
 
 def judge(case: Case, schedule: Schedule) -> Verdict:

@@ -12,10 +12,10 @@ import math
 from fractions import Fraction
 from typing import Any
 
-from obvert.emit.filters import INT32_MAX, INT32_MIN, num
-from obvert.emit.profile import TargetProfile
-from obvert.emit.validate import EmitError
-from obvert.table.lookup import WEIGHT_ONE, bilinear_applies, cells_for_rule
+from obvert.emitter.errors import EmitError
+from obvert.emitter.filters import INT32_MAX, INT32_MIN, num
+from obvert.emitter.profile import TargetProfile
+from obvert.firmware.lookup import WEIGHT_ONE, bilinear_applies, cells_for_rule
 
 __all__ = [
     "BILINEAR_TICK_LIMIT",

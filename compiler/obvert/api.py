@@ -1,0 +1,174 @@
+"""The public API: load a spec, compile its certified table, emit it for firmware targets.
+
+Each function is one core call; the command line (:mod:`obvert.cli`) is a thin layer over
+these. Nothing here writes files: :func:`emit` returns ``{filename: bytes}``.
+"""
+
+from __future__ import annotations
+
+import sys
+from collections.abc import Callable, Mapping, Sequence
+from importlib import resources
+from typing import Any
+
+from obvert.emitter import EmitError, TargetProfile, load_target
+from obvert.emitter import emit as _emit_one
+from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
+from obvert.table import CookTable, manifest
+from obvert.table import compile_table as _compile
+
+if sys.version_info >= (3, 11):
+    import tomllib
+else:  # pragma: no cover
+    import tomli as tomllib
+
+Targets = TargetProfile | str | Sequence[TargetProfile | str]
+
+#: Built-in demo specs (an invented kitchen and its products), by name.
+DEMOS = {"griddle": "griddle_patty.toml", "clamshell": "clamshell_patty.toml"}
+
+
+def demo_text(name: str) -> str:
+    """TOML text of the built-in demo spec ``name`` (see :data:`DEMOS`)."""
+    if name not in DEMOS:
+        raise SpecError("demo", name, f"one of {sorted(DEMOS)}")
+    return resources.files("obvert.demo").joinpath(DEMOS[name]).read_text("utf-8")
+
+
+def demo_spec(
+    name: str = "griddle",
+    *,
+    thickness: Sequence[str] | None = None,
+    start_temperature: Sequence[str] | None = None,
+) -> Spec:
+    """The built-in demo spec ``name``, optionally on a smaller grid.
+
+    Parameters
+    ----------
+    name : str
+        ``griddle`` or ``clamshell`` (an invented kitchen and products).
+    thickness, start_temperature : sequence of str, optional
+        Grid nodes with units (``"10 mm"``, ``"4 degC"``) replacing the demo's.
+
+    Returns
+    -------
+    Spec
+        The checked spec.
+
+    Examples
+    --------
+    >>> import obvert
+    >>> obvert.demo_spec("clamshell").appliance.kind
+    'clamshell'
+    """
+    text = demo_text(name)
+    if thickness is None and start_temperature is None:
+        return loads_spec(text, f"<demo {name}>")
+    data = tomllib.loads(text)
+    if thickness is not None:
+        data["grid"]["thickness"] = list(thickness)
+    if start_temperature is not None:
+        data["grid"]["start_temperature"] = list(start_temperature)
+    return spec_from_dict(data)
+
+
+def _profiles(targets: Targets | None, spec: Spec | None) -> list[TargetProfile]:
+    if targets is None:
+        if spec is None:
+            raise ValueError("targets: none given and no spec to take outputs.targets from")
+        targets = spec.targets
+    if isinstance(targets, TargetProfile | str):
+        targets = [targets]
+    return [t if isinstance(t, TargetProfile) else load_target(t) for t in targets]
+
+
+def compile_table(
+    spec: Spec,
+    targets: Targets | None = None,
+    *,
+    progress: Callable[[str], None] | None = None,
+    jobs: int = 1,
+) -> CookTable:
+    """Plan and certify every node of ``spec``, and every cell the targets' lookups use.
+
+    Parameters
+    ----------
+    spec : Spec
+        From :func:`load_spec`.
+    targets : TargetProfile, str or sequence of them, optional
+        The targets the table will be emitted for (default: the spec's
+        ``outputs.targets``); their lookup rules decide which cells are certified.
+    progress : callable, optional
+        Called with a one-line message as work proceeds.
+    jobs : int
+        Worker processes; the result does not depend on it.
+
+    Returns
+    -------
+    CookTable
+        Certified nodes and cells.
+
+    Raises
+    ------
+    BuildError, CellCertificationError
+        A node or a cell could not be planned or certified (nothing may be emitted).
+    ProfileError
+        A target that does not exist or is malformed.
+
+    Examples
+    --------
+    >>> import obvert
+    >>> spec = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
+    >>> table = obvert.compile_table(spec, ["c99"])
+    >>> [round(node.margin_log, 3) >= 0.0 for node in table.nodes]
+    [True]
+    """
+    rules = sorted({"corner", *(p.lookup for p in _profiles(targets, spec))})
+    return _compile(spec, rules, progress, jobs=jobs)
+
+
+def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -> dict[str, bytes]:
+    """Render a table (or its manifest) for one or several targets.
+
+    Parameters
+    ----------
+    table : CookTable or dict
+        A compiled table, or a manifest (e.g. read back from the JSON output).
+    targets : TargetProfile, str or sequence of them, optional
+        Target profiles or built-in names (default: the table's spec's ``outputs.targets``).
+
+    Returns
+    -------
+    dict of str to bytes
+        Every output file, by file name.
+
+    Raises
+    ------
+    ManifestError
+        The manifest is not certified, not in the current format, or malformed.
+    EmitError
+        A target cannot represent the table, or two targets write one file name.
+
+    Examples
+    --------
+    >>> import obvert
+    >>> spec = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
+    >>> files = obvert.emit(obvert.compile_table(spec, ["c99", "json"]), ["c99", "json"])
+    >>> sorted(files)
+    ['brinecliff_patty.h', 'brinecliff_patty.json']
+    """
+    m = manifest(table) if isinstance(table, CookTable) else dict(table)
+    spec = table.spec if isinstance(table, CookTable) else None
+    if targets is None and spec is None:
+        targets = list(m.get("spec", {}).get("targets", [])) or None
+    files: dict[str, bytes] = {}
+    owner: dict[str, str] = {}
+    for prof in _profiles(targets, spec):
+        for name, data in _emit_one(m, prof).items():
+            if name in files and files[name] != data:
+                raise EmitError(
+                    f"targets {owner[name]!r} and {prof.name!r} both write {name!r} "
+                    "with different contents; choose one of them"
+                )
+            files[name], owner[name] = data, prof.name
+    return files

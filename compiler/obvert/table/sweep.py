@@ -1,0 +1,228 @@
+"""The grid sweep: plan, quantise and certify every node of the table.
+
+``build(problem) -> tuple of Node`` is pure: it reads nothing from disk and writes nothing.
+"""
+
+from __future__ import annotations
+
+import multiprocessing
+from collections.abc import Callable
+from concurrent.futures import ProcessPoolExecutor, as_completed
+from dataclasses import replace
+
+import numpy as np
+
+from obvert.certify.calibrate import Calibrated, calibrate
+from obvert.certify.node import CertificationError, certify
+from obvert.firmware.contract import to_ticks
+from obvert.plan.bounds import BoundPlanners
+from obvert.plan.collocation import Grid
+from obvert.plan.ocp import Member, PlanError, Planner, PlanResult
+from obvert.plan.quantize import quantize
+from obvert.problem.model import Case, Problem
+from obvert.spec.model import Spec
+from obvert.table.model import Candidate, Node
+
+Progress = Callable[[str], None]
+
+
+class BuildError(RuntimeError):
+    """A grid node could not be planned or certified; nothing may be emitted."""
+
+
+def build(problem: Problem, progress: Progress | None = None, jobs: int = 1) -> tuple[Node, ...]:
+    """Plan, quantise and certify every node of the problem's grid.
+
+    Parameters
+    ----------
+    problem : Problem
+        The spec turned into physics (:func:`obvert.problem.problem_of`).
+    progress : callable, optional
+        Called with a one-line message as work proceeds.
+    jobs : int
+        Worker processes; rows of equal thickness are independent and are built in
+        parallel when ``jobs > 1``. The result does not depend on ``jobs``.
+
+    Returns
+    -------
+    tuple of Node
+        Certified nodes, i-major.
+
+    Raises
+    ------
+    BuildError
+        A node has no solvable flip count, or its schedule cannot be certified.
+    """
+    spec = problem.spec
+    say = progress or (lambda _msg: None)
+    n_t = len(spec.grid.thickness_m)
+    workers = max(1, min(int(jobs), n_t))
+    rows: dict[int, list[Node]] = {}
+    if workers == 1:
+        for i in range(n_t):
+            rows[i] = _row(problem, i, say)
+    else:
+        ctx = multiprocessing.get_context("spawn")
+        with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
+            futures = {pool.submit(_row, problem, i, None): i for i in range(n_t)}
+            say(f"building {n_t} thickness rows in {workers} processes")
+            for fut in as_completed(futures):
+                i = futures[fut]
+                rows[i] = fut.result()
+                say(f"row {i + 1}/{n_t} done: {spec.grid.thickness_m[i] * 1e3:g} mm")
+    return tuple(node for i in range(n_t) for node in rows[i])
+
+
+def _row(problem: Problem, i: int, say: Progress | None) -> list[Node]:
+    """All nodes of thickness row ``i`` (one planner, reused across start temperatures)."""
+    spec = problem.spec
+    thick = spec.grid.thickness_m[i]
+    n_s = len(spec.grid.start_temp_c)
+    grid = Grid(spec.planning.elements_per_phase)
+    req, gap = problem.requirement, spec.appliance.min_event_gap_s
+    members = [Member(problem.reduced_model(s, thick), s.env) for s in problem.scenarios]
+    planner = Planner(members[0].model, members[0].env, req, gap, grid, extra=tuple(members[1:]))
+    nom = problem.nominal
+    nominal_planner = None
+    if nom is not None:
+        nominal_planner = Planner(problem.reduced_model(nom, thick), nom.env, req, gap, grid)
+    limits = BoundPlanners(members[0].model, members[0].env, req, grid)
+    out = []
+    for j, t0 in enumerate(spec.grid.start_temp_c):
+        if say is not None:
+            n_all = len(spec.grid.thickness_m) * n_s
+            say(f"node {i * n_s + j + 1}/{n_all}: {thick * 1e3:g} mm, {t0:g} degC")
+        cases = list(problem.cases_at(thick, t0))
+        node = _node(problem, planner, cases, i, j, (thick, t0))
+        t_worst = cases[0].start_temp_c
+        node = replace(node, bounds_s=tuple(sorted(limits.solve(t_worst).items())))
+        if nominal_planner is not None and nom is not None:
+            nom_case = problem.case(nom, thick, t0)
+            node = replace(
+                node, nominal_planned_s=_nominal(problem, nominal_planner, node, t0, nom_case)
+            )
+        out.append(node)
+    return out
+
+
+def _nominal(problem: Problem, planner: Planner, node: Node, t0: float, case: Case) -> float | None:
+    """Nominal-conditions optimum of the node's chosen event sequence, s (None: failed).
+
+    Corrected against the reference like the robust plan, so that the price of robustness
+    compares like with like.
+    """
+    kinds = tuple(e.kind for e in node.schedule.events[:-1] if e.kind != "platen_open")
+    try:  # the robust plan also meets the nominal target: a start near the nominal optimum
+        res = planner.solve(kinds, t0, (np.array(node.planned_dwell_s),))
+    except PlanError:
+        return None
+    rounds = problem.spec.planning.calibration_rounds
+    return calibrate(planner, kinds, t0, [case], res, rounds).result.cook_time_s
+
+
+def _node(
+    problem: Problem,
+    planner: Planner,
+    cases: list[Case],
+    i: int,
+    j: int,
+    at: tuple[float, float],
+) -> Node:
+    cell = f"node (thickness {at[0] * 1e3:g} mm, start {at[1]:g} degC)"
+    t_plan = cases[0].start_temp_c
+    cands: list[Candidate] = []
+    solved: dict[tuple[str, ...], PlanResult] = {}
+    prev: tuple[float, ...] | None = None
+    spec = problem.spec
+    for seq in problem.sequences:
+        flips = seq.count("flip")
+        closing = "platen_close" in seq
+        seeds = () if prev is None or closing else (_split_last(prev, spec.appliance.flip_air_s),)
+        try:
+            res = planner.solve(seq, t_plan, seeds)
+        except PlanError as exc:
+            cands.append(Candidate(flips, None, str(exc), seq))
+            prev = None if not closing else prev
+            continue
+        if not closing:
+            prev = res.dwell_s
+        solved[seq] = res
+        cands.append(Candidate(flips, res.cook_time_s, res.solver_status, seq))
+    if not solved:
+        raise BuildError(
+            f"{cell}: no flip count could be planned: " + "; ".join(c.note for c in cands)
+        )
+    choice, cands = _choose(problem.spec, planner, cases, solved, cands)
+    plan = choice.result.schedule
+    a = spec.appliance
+    ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
+    try:
+        cert = certify(cases, ticked, a.tick_s)
+    except CertificationError as exc:
+        raise BuildError(f"{cell}: {exc}") from None
+    for ev in cert.schedule.events:  # every emitted time is a whole tick
+        if abs(to_ticks(ev.at_s, a.tick_s) * a.tick_s - ev.at_s) > 1e-9:
+            raise BuildError(f"{cell}: event {ev.kind} at {ev.at_s} s is not a whole tick")
+    return Node(
+        i=i,
+        j=j,
+        thickness_m=at[0],
+        start_temp_c=at[1],
+        schedule=cert.schedule,
+        planned_cook_time_s=plan.done_s,
+        extension_s=cert.extension_s,
+        min_log_reduction=cert.verdict.min_log_reduction,
+        margin_log=cert.margin_log,
+        min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
+        candidates=tuple(cands),
+        model_planned_s=choice.model_cook_time_s if spec.planning.calibration_rounds else None,
+        calibration_note=choice.note,
+        planned_dwell_s=choice.result.dwell_s,
+    )
+
+
+#: Candidates whose uncorrected cost is within this fraction of the best are corrected too
+#: (the correction moves a cook time by a few tenths of a per cent).
+CALIBRATION_WINDOW = 0.01
+
+
+def _choose(
+    spec: Spec,
+    planner: Planner,
+    cases: list[Case],
+    solved: dict[tuple[str, ...], PlanResult],
+    cands: list[Candidate],
+) -> tuple[Calibrated, list[Candidate]]:
+    """The event sequence of least cost after the reference-calibrated correction.
+
+    Cost is cook time plus ``flip_cost`` per flip. The best sequence on the reduced model
+    and every other within :data:`CALIBRATION_WINDOW` of it are corrected, and the least
+    corrected cost wins (ties: fewer events, then the order tried).
+    """
+
+    def cost(seq: tuple[str, ...], t: float) -> float:
+        return t + seq.count("flip") * spec.planning.flip_cost_s
+
+    low = min(cost(q, r.cook_time_s) for q, r in solved.items())
+    rounds = spec.planning.calibration_rounds
+    best: tuple[float, Calibrated] | None = None
+    out = list(cands)
+    t_plan = cases[0].start_temp_c
+    for seq, res in solved.items():
+        if cost(seq, res.cook_time_s) > low * (1.0 + CALIBRATION_WINDOW) + 1e-9:
+            continue
+        cal = calibrate(planner, seq, t_plan, cases, res, rounds)
+        k = next(i for i, c in enumerate(out) if c.sequence == seq)
+        if rounds:
+            out[k] = replace(out[k], calibrated_cook_time_s=cal.result.cook_time_s)
+        c = cost(seq, cal.result.cook_time_s)
+        if best is None or c < best[0] - 1e-9:
+            best = (c, cal)
+    assert best is not None  # the uncorrected best is always within the window
+    return best[1], out
+
+
+def _split_last(dwell: tuple[float, ...], flip_air_s: float) -> tuple[float, ...]:
+    """Seed for one more flip: the previous optimum with its last dwell cut in two, s."""
+    last = dwell[-1]
+    return (*dwell[:-1], 0.5 * last, max(0.5 * last - flip_air_s, 0.0))
