@@ -20,10 +20,10 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from obvert.emitter import EmitError, TargetProfile, emit, load_target
-from obvert.firmware import ManifestError
 from obvert.emitter.filters import c_comment, c_float, c_int, c_string, c_uint, num
 from obvert.emitter.profile import OutputSpec
 from obvert.emitter.render import environment, render_template
+from obvert.firmware import ManifestError
 
 _SPEC = importlib.util.spec_from_file_location(
     "obvert_tests_manifest_unit", Path(__file__).resolve().parents[1] / "conftest_manifest.py"

@@ -39,10 +39,6 @@ class LethalityModel:
         t = np.minimum(np.asarray(temp_c, dtype=float), self.cap_c)
         return np.power(10.0, (t - self.t_ref_c) / self.z_k) / self.d_ref_s
 
-    def hold_time_s(self, temp_c: float, log_reduction: float) -> float:
-        """Time at constant ``temp_c`` (degC) that gives ``log_reduction``, s."""
-        return float(log_reduction / self.rate(temp_c))
-
 
 def log_reduction(model: LethalityModel, time_s: ArrayLike, temp_c: ArrayLike) -> float:
     """Log reduction accumulated over a sampled temperature history (trapezoid rule).

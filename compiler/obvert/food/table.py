@@ -65,10 +65,6 @@ class PropertyTable:
         """Thermal conductivity at ``temp_c`` (degC), W/(m K)."""
         return np.interp(temp_c, self.temp_c, self.conductivity)
 
-    def volumetric_heat_capacity(self, temp_c: ArrayLike) -> NDArray[np.float64]:
-        """Apparent volumetric heat capacity rho*cp at ``temp_c`` (degC), J/(m^3 K)."""
-        return np.interp(temp_c, self.temp_c, self.density * self.cp_apparent)
-
     def kirchhoff(self) -> NDArray[np.float64]:
         """Kirchhoff potential u(T) = integral of k dT on ``temp_c``, W/m."""
         dt = np.diff(self.temp_c)

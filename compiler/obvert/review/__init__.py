@@ -1,1 +1,5 @@
-"""Obvert review package."""
+"""Views of a manifest for people: the build summary (later: diffs, reports, checks)."""
+
+from obvert.review.summary import summary
+
+__all__ = ["summary"]

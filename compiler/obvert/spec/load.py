@@ -6,7 +6,6 @@ names the field path, the value and what is allowed.
 
 from __future__ import annotations
 
-import math
 import re
 import sys
 from pathlib import Path
@@ -26,6 +25,7 @@ from obvert.spec.model import (
     SafetySpec,
     Spec,
 )
+from obvert.spec.section import Section
 from obvert.spec.tolerances import tolerances_section
 from obvert.spec.units import quantity
 
@@ -37,70 +37,7 @@ else:  # pragma: no cover
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,39}$")
 
 
-class _Section:
-    """A TOML table being read: tracks the keys used so leftovers can be refused."""
-
-    def __init__(self, data: object, path: str) -> None:
-        if not isinstance(data, dict):
-            raise SpecError(path, data, "a table")
-        self.data: dict[str, Any] = data
-        self.path = path
-        self.used: set[str] = set()
-
-    def _p(self, key: str) -> str:
-        return f"{self.path}.{key}" if self.path else key
-
-    def has(self, key: str) -> bool:
-        return key in self.data
-
-    def raw(self, key: str, default: object = ...) -> Any:
-        self.used.add(key)
-        if key not in self.data:
-            if default is ...:
-                raise SpecError(self._p(key), None, "a value (the field is required)")
-            return default
-        return self.data[key]
-
-    def section(self, key: str, required: bool = True) -> _Section | None:
-        if not required and key not in self.data:
-            self.used.add(key)
-            return None
-        return _Section(self.raw(key), self._p(key))
-
-    def qty(self, key: str, kind: str, default: object = ...) -> float | None:
-        value = self.raw(key, default)
-        if value is None:
-            return None
-        return quantity(value, self._p(key), kind)
-
-    def number(self, key: str, lo: float, hi: float, default: object = ...) -> float:
-        value = self.raw(key, default)
-        ok = isinstance(value, int | float) and not isinstance(value, bool)
-        if not ok or not math.isfinite(value) or not lo <= value <= hi:
-            raise SpecError(self._p(key), value, f"a number from {lo:g} to {hi:g}")
-        return float(value)
-
-    def integer(self, key: str, lo: int, hi: int, default: object = ...) -> int:
-        value = self.raw(key, default)
-        if not isinstance(value, int) or isinstance(value, bool) or not lo <= value <= hi:
-            raise SpecError(self._p(key), value, f"an integer from {lo} to {hi}")
-        return value
-
-    def text(self, key: str, default: object = ...) -> str:
-        value = self.raw(key, default)
-        if not isinstance(value, str) or not value.strip():
-            raise SpecError(self._p(key), value, "a non-empty string")
-        return value
-
-    def done(self) -> None:
-        extra = sorted(set(self.data) - self.used)
-        if extra:
-            raise SpecError(
-                self._p(extra[0]), self.data[extra[0]], f"one of the known keys {sorted(self.used)}"
-            )
-
-
-def _property(sec: _Section, key: str, kind: str) -> PropertyValue:
+def _property(sec: Section, key: str, kind: str) -> PropertyValue:
     raw = sec.raw(key)
     path = sec._p(key)
     if isinstance(raw, str):
@@ -120,7 +57,7 @@ def _property(sec: _Section, key: str, kind: str) -> PropertyValue:
     return tuple(pairs)
 
 
-def _food(sec: _Section) -> FoodSpec:
+def _food(sec: Section) -> FoodSpec:
     name = sec.text("name")
     comp_sec = sec.section("composition", required=False)
     meas_sec = sec.section("measured", required=False)
@@ -175,7 +112,7 @@ def _food(sec: _Section) -> FoodSpec:
     )
 
 
-def _axis(sec: _Section, key: str, kind: str, lo: float, hi: float, unit: str) -> tuple[float, ...]:
+def _axis(sec: Section, key: str, kind: str, lo: float, hi: float, unit: str) -> tuple[float, ...]:
     raw = sec.raw(key)
     path = sec._p(key)
     if not isinstance(raw, list) or not 1 <= len(raw) <= 64:
@@ -189,7 +126,7 @@ def _axis(sec: _Section, key: str, kind: str, lo: float, hi: float, unit: str) -
     return vals
 
 
-def _grid(sec: _Section) -> GridSpec:
+def _grid(sec: Section) -> GridSpec:
     t = _axis(sec, "thickness", "length", 0.002, 0.05, "m (2 to 50 mm)")
     s = _axis(sec, "start_temperature", "temperature", -40.0, 30.0, "degC")
     sec.done()
@@ -199,7 +136,7 @@ def _grid(sec: _Section) -> GridSpec:
 APPLIANCE_KINDS = ("flipping_griddle", "clamshell", "flip_then_close")
 
 
-def _appliance(sec: _Section) -> ApplianceSpec:
+def _appliance(sec: Section) -> ApplianceSpec:
     kind = sec.text("kind", "flipping_griddle")
     if kind not in APPLIANCE_KINDS:
         raise SpecError(sec._p("kind"), kind, f"one of {list(APPLIANCE_KINDS)}")
@@ -260,7 +197,7 @@ def _appliance(sec: _Section) -> ApplianceSpec:
     return out
 
 
-def _safety(sec: _Section) -> SafetySpec:
+def _safety(sec: Section) -> SafetySpec:
     organism = sec.raw("organism", None)
     cap = sec.qty("lethality_cap", "temperature", None)
     if organism is not None:
@@ -297,9 +234,9 @@ def _safety(sec: _Section) -> SafetySpec:
     return SafetySpec(name, source, lr, float(d_ref), float(t_ref), float(z), min_t, carry, cap_c)
 
 
-def _planning(sec: _Section | None) -> PlanningSpec:
+def _planning(sec: Section | None) -> PlanningSpec:
     if sec is None:
-        sec = _Section({}, "planning")
+        sec = Section({}, "planning")
     cost = sec.qty("flip_cost", "time", None)
     out = PlanningSpec(
         flip_cost_s=_range_check(
@@ -318,7 +255,7 @@ def _planning(sec: _Section | None) -> PlanningSpec:
     return out
 
 
-def _lethality_points(sec: _Section) -> int:
+def _lethality_points(sec: Section) -> int:
     n = sec.integer("lethality_points", 0, 401, 21)
     if 0 < n < 3:
         raise SpecError(sec._p("lethality_points"), n, "0 (at the nodes) or 3 to 401")
@@ -333,7 +270,7 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
     SpecError
         A field is missing, unknown or holds a value that is not allowed.
     """
-    top = _Section(data, "")
+    top = Section(data, "")
     table = top.section("table")
     name = table.text("name")
     if not _NAME.match(name):
@@ -350,7 +287,7 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
     safety = _safety(top.section("safety"))
     planning = _planning(top.section("planning", required=False))
     tolerances = tolerances_section(top.section("tolerances", required=False), food)
-    out_sec = top.section("outputs", required=False) or _Section({}, "outputs")
+    out_sec = top.section("outputs", required=False) or Section({}, "outputs")
     targets = out_sec.raw("targets", ["c99", "json"])
     if not isinstance(targets, list) or not targets or not all(isinstance(t, str) for t in targets):
         raise SpecError("outputs.targets", targets, "a non-empty list of target names")

@@ -9,10 +9,10 @@ from obvert.spec.errors import range_check as _range_check
 from obvert.spec.model import FoodSpec, ToleranceSpec
 
 if TYPE_CHECKING:
-    from obvert.spec.load import _Section
+    from obvert.spec.section import Section
 
 
-def tolerances_section(sec: _Section | None, food: FoodSpec) -> ToleranceSpec:
+def tolerances_section(sec: Section | None, food: FoodSpec) -> ToleranceSpec:
     """The ``[tolerances]`` section (absent: every tolerance zero)."""
     if sec is None:
         return ToleranceSpec()
@@ -35,7 +35,7 @@ def tolerances_section(sec: _Section | None, food: FoodSpec) -> ToleranceSpec:
     return ToleranceSpec(offset, droop, recovery, contact, thick, temp, fat)
 
 
-def _fat_range(sec: _Section, food: FoodSpec) -> tuple[float, float] | None:
+def _fat_range(sec: Section, food: FoodSpec) -> tuple[float, float] | None:
     raw = sec.raw("fat_fraction", None)
     if raw is None:
         return None

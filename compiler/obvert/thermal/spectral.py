@@ -249,10 +249,6 @@ class SpectralModel:
         s = state[: self.n]
         return ca.vertcat(*[self.temp_of(s[j]) for j in range(self.n)])
 
-    def log_reductions(self, state: ca.MX | NDArray[np.float64]) -> ca.MX:
-        """Log reductions at the lethality points of a state."""
-        return state[self.n :]
-
     def rhs(
         self, state: ca.MX, face0: FaceBC, face1: FaceBC, time_s: ca.MX | float | None = None
     ) -> ca.MX:
@@ -283,25 +279,6 @@ class SpectralModel:
     @cached_property
     def _sym(self) -> ca.MX:
         return ca.MX.sym("x", self.n_states)
-
-    def phase_integrator(self, face0: FaceBC, face1: FaceBC, steps: int = 1) -> ca.Function:
-        """Function ``(x0, duration_s) -> x1`` integrating one phase with BDF (CVODES).
-
-        Time is scaled to [0, 1] so the duration is a differentiable parameter.
-        """
-        x = self._sym
-        dur = ca.MX.sym("dur")
-        ode = {"x": x, "p": dur, "ode": dur * self.rhs(x, face0, face1)}
-        opts = {
-            "abstol": 1e-9,
-            "reltol": 1e-7,
-            "max_num_steps": 20000,
-        }
-        f = ca.integrator("phase", "cvodes", ode, 0.0, 1.0, opts)
-        x0 = ca.MX.sym("x0", self.n_states)
-        d = ca.MX.sym("d")
-        out = f(x0=x0, p=d)["xf"]
-        return ca.Function("phase_step", [x0, d], [out])
 
     def trajectory(
         self, face0: FaceBC, face1: FaceBC, fractions: NDArray[np.float64]
