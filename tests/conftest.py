@@ -16,6 +16,17 @@ sys.modules[_SPEC.name] = helpers
 _SPEC.loader.exec_module(helpers)
 
 
+#: Fixtures that compile a real table (minutes of planning and certification).
+BUILD_FIXTURES = {"built", "built_tolerances"}
+
+
+def pytest_collection_modifyitems(items: list[pytest.Item]) -> None:
+    """Mark every test that compiles a real table as ``slow`` (deselect with -m "not slow")."""
+    for item in items:
+        if BUILD_FIXTURES & set(getattr(item, "fixturenames", ())):
+            item.add_marker(pytest.mark.slow)
+
+
 @pytest.fixture(scope="session")
 def built(tmp_path_factory: pytest.TempPathFactory):
     """The small test spec built once through the CLI: output folder, stdout, manifest."""

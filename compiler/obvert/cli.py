@@ -118,5 +118,34 @@ def build_cmd(
     click.echo(f"caution: {CAUTION}")
 
 
+@main.command("upgrade")
+@click.argument("old", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Where to write the manifest in the current format (JSON).",
+)
+def upgrade_cmd(old: Path, out_file: Path) -> None:
+    """Convert a JSON table of an older format version to the current one, and check it."""
+    import json
+
+    from obvert.firmware import ManifestError, canonical_json, check_manifest, upgrade_manifest
+
+    try:
+        data = json.loads(old.read_text("utf-8"))
+        new = upgrade_manifest(data)
+        check_manifest(new)
+    except (OSError, UnicodeDecodeError, json.JSONDecodeError) as exc:
+        click.echo(f"error: {old}: cannot read a JSON table: {exc}", err=True)
+        sys.exit(2)
+    except ManifestError as exc:
+        click.echo(f"error: {old}: {exc}", err=True)
+        sys.exit(2)
+    write_atomically(out_file.parent, {out_file.name: canonical_json(new)})
+    click.echo(f"wrote {out_file} (format version {new['format_version']})")
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

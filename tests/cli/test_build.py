@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from pathlib import Path
 
+import pytest
 from click.testing import CliRunner
 
 from obvert import CAUTION, __version__
@@ -132,6 +133,7 @@ def test_unknown_target_is_exit_2(tmp_path: Path) -> None:
     assert not (tmp_path / "o").exists()
 
 
+@pytest.mark.slow
 def test_unreachable_target_is_exit_1_and_writes_nothing(tmp_path: Path) -> None:
     # A plate at 100 degC cannot bring the face in air to 99.9 degC: no plan exists.
     text = SPEC.read_text()

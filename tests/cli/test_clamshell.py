@@ -5,6 +5,7 @@ from __future__ import annotations
 import json
 from pathlib import Path
 
+import pytest
 from click.testing import CliRunner
 
 from obvert.cli import main
@@ -12,6 +13,7 @@ from obvert.cli import main
 SPEC = Path(__file__).with_name("clamshell_spec.toml")
 
 
+@pytest.mark.slow
 def test_clamshell_schedule_closes_then_releases_at_done(tmp_path: Path) -> None:
     res = CliRunner().invoke(main, ["build", str(SPEC), "--out", str(tmp_path), "--quiet"])
     assert res.exit_code == 0, res.stderr

@@ -8,10 +8,13 @@ temperature across the freezing point (latent heat) and in thickness (conduction
 grows with the square of thickness: H. S. Carslaw and J. C. Jaeger, "Conduction of Heat in
 Solids", 2nd ed., Oxford, 1959, sec. 3.3; from memory). The certified table then runs, in
 that cell, either the interpolation with its certified pad or the corner rule, and every
-sample passes.
+point passes: the certifier's own samples, and points this test draws itself (the four
+corners and uniform random points from a seed of its own), which the certifier never saw.
 """
 
 from __future__ import annotations
+
+import numpy as np
 
 from obvert.certify.batch import judge_many
 from obvert.certify.cells import lookup_schedules, sample_points, trial_cells, with_cells
@@ -40,6 +43,11 @@ def test_interpolation_needs_certification(built_tolerances) -> None:
     cell = m["cells"]["bilinear"][0]
     repaired = _judge(b.spec, m, "bilinear", points)
     assert all(v.passed for v in repaired), cell
+    rng = np.random.default_rng(20261202)  # not a seed the certifier uses
+    own = [(x, t) for x in (ax[0], ax[1]) for t in (at[0], at[1])]
+    own += [(float(rng.uniform(ax[0], ax[1])), float(rng.uniform(at[0], at[1]))) for _ in range(6)]
+    failing = [p for p in own if not all(v.passed for v in _judge(b.spec, m, "bilinear", [p]))]
+    assert not failing, f"certified cell {cell} fails at points it never sampled: {failing}"
     if cell["rule"] == "bilinear":
         assert cell["done_pad_ticks"] > 0
     assert cell["min_margin_log"] >= 0.0

@@ -318,13 +318,14 @@ def _upgrade_1(manifest: dict[str, Any]) -> dict[str, Any]:
         n = dict(node)
         if "correction_s" in n:
             n["extension_s"] = n.pop("correction_s")
-        n["candidates"] = [
-            {
-                ("calibrated_cook_time_s" if k == "corrected_cook_time_s" else k): v
-                for k, v in c.items()
-            }
-            for c in n.get("candidates", [])
-        ]
+        if "candidates" in n:
+            n["candidates"] = [
+                {
+                    ("calibrated_cook_time_s" if k == "corrected_cook_time_s" else k): v
+                    for k, v in c.items()
+                }
+                for c in n["candidates"]
+            ]
         nodes.append(n)
     out["nodes"] = nodes
     safety = dict(manifest.get("safety", {}))
