@@ -7,14 +7,15 @@ these. Nothing here writes files: :func:`emit` returns ``{filename: bytes}``.
 from __future__ import annotations
 
 import sys
-from collections.abc import Callable, Mapping, Sequence
+from collections.abc import Mapping, Sequence
+from concurrent.futures import Executor
 from importlib import resources
 from typing import Any
 
 from obvert.emitter import EmitError, TargetProfile, load_target
 from obvert.emitter import emit as _emit_one
 from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
-from obvert.table import CookTable, manifest
+from obvert.table import CookTable, Progress, manifest
 from obvert.table import compile_table as _compile
 
 if sys.version_info >= (3, 11):
@@ -86,8 +87,9 @@ def compile_table(
     spec: Spec,
     targets: Targets | None = None,
     *,
-    progress: Callable[[str], None] | None = None,
+    progress: Progress | None = None,
     jobs: int = 1,
+    executor: Executor | None = None,
 ) -> CookTable:
     """Plan and certify every node of ``spec``, and every cell the targets' lookups use.
 
@@ -99,9 +101,13 @@ def compile_table(
         The targets the table will be emitted for (default: the spec's
         ``outputs.targets``); their lookup rules decide which cells are certified.
     progress : callable, optional
-        Called with a one-line message as work proceeds.
+        Called with an :class:`obvert.table.ProgressEvent` as work proceeds (nodes done,
+        total, failed candidate solves, a one-line message).
     jobs : int
-        Worker processes; the result does not depend on it.
+        Local worker processes (1: in this process).
+    executor : concurrent.futures.Executor, optional
+        Runs the work instead, e.g. ``distributed.Client(address).get_executor()``. The
+        result does not depend on ``jobs`` or ``executor``.
 
     Returns
     -------
@@ -124,7 +130,7 @@ def compile_table(
     [True]
     """
     rules = sorted({"corner", *(p.lookup for p in _profiles(targets, spec))})
-    return _compile(spec, rules, progress, jobs=jobs)
+    return _compile(spec, rules, progress, jobs=jobs, executor=executor)
 
 
 def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -> dict[str, bytes]:

@@ -3,7 +3,7 @@
 from obvert.table.compile import CellCertificationError, compile_table
 from obvert.table.manifest import manifest
 from obvert.table.model import Candidate, CookTable, Node
-from obvert.table.sweep import BuildError
+from obvert.table.sweep import BuildError, Progress, ProgressEvent
 
 __all__ = [
     "BuildError",
@@ -11,6 +11,8 @@ __all__ = [
     "CellCertificationError",
     "CookTable",
     "Node",
+    "Progress",
+    "ProgressEvent",
     "compile_table",
     "manifest",
 ]

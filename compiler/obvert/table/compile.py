@@ -9,18 +9,18 @@ on the node entries exactly as they will be emitted, so what is certified is wha
 
 from __future__ import annotations
 
-import multiprocessing
 from collections.abc import Sequence
-from concurrent.futures import ProcessPoolExecutor
+from concurrent.futures import Executor
 from typing import Any
 
 from obvert.certify.cells import CellError, CellResult, bilinear_cell, corner_cells, trial_cells
 from obvert.firmware.contract import RULES
 from obvert.problem.model import Problem, problem_of
 from obvert.spec.model import Spec
+from obvert.table.executor import run_tasks
 from obvert.table.manifest import node_entries
 from obvert.table.model import CookTable
-from obvert.table.sweep import Progress, build
+from obvert.table.sweep import Progress, ProgressEvent, build
 
 
 class CellCertificationError(RuntimeError):
@@ -32,6 +32,7 @@ def compile_table(
     rules: Sequence[str] = ("corner",),
     progress: Progress | None = None,
     jobs: int = 1,
+    executor: Executor | None = None,
 ) -> CookTable:
     """Plan and certify every node, then every cell for each lookup rule in ``rules``.
 
@@ -42,9 +43,12 @@ def compile_table(
     rules : sequence of str
         Lookup rules whose cells are certified (``corner`` always is).
     progress : callable, optional
-        Called with a one-line message as work proceeds.
+        Called with a :class:`~obvert.table.sweep.ProgressEvent` as work proceeds.
     jobs : int
-        Worker processes; the result does not depend on it.
+        Local worker processes (1: in this process).
+    executor : concurrent.futures.Executor, optional
+        Runs the work instead of local processes (e.g. a Dask client's executor). The
+        result does not depend on ``jobs`` or ``executor``.
 
     Raises
     ------
@@ -58,34 +62,40 @@ def compile_table(
     for r in rules:
         if r not in RULES:
             raise ValueError(f"rules: {r!r} is not a lookup rule; allowed {list(RULES)}")
-    say = progress or (lambda _msg: None)
     problem = problem_of(spec)
-    nodes = build(problem, progress, jobs=jobs)
+    nodes = build(problem, progress, jobs=jobs, executor=executor)
     entries = node_entries(spec, nodes)
     cells: dict[str, tuple[CellResult, ...]] = {"corner": tuple(corner_cells(entries))}
     if "bilinear" in rules and cells["corner"]:
-        cells["bilinear"] = _bilinear(problem, entries, say, jobs)
+        cells["bilinear"] = _bilinear(problem, entries, progress, jobs, executor)
     return CookTable(spec, nodes, tuple(sorted(cells.items())))
 
 
 def _bilinear(
-    problem: Problem, entries: dict[str, Any], say: Progress, jobs: int
+    problem: Problem,
+    entries: dict[str, Any],
+    progress: Progress | None,
+    jobs: int,
+    executor: Executor | None,
 ) -> tuple[CellResult, ...]:
     trial = trial_cells(entries)
-    say(f"certifying {len(trial)} cells for the bilinear rule")
-    if jobs <= 1:
-        out = [_cell_job(problem, entries, c) for c in trial]
-    else:
-        ctx = multiprocessing.get_context("spawn")
-        n = len(trial)
-        with ProcessPoolExecutor(max_workers=min(jobs, n), mp_context=ctx) as pool:
-            out = list(pool.map(_cell_job, [problem] * n, [entries] * n, trial))
-    for c in out:
-        say(
-            f"cell ({c.ci}, {c.cj}): {c.rule}, pad {c.done_pad_ticks} ticks, "
-            f"margin {c.min_margin_log:.3f} log over {c.samples} runs"
-        )
-    return tuple(out)
+    out: dict[int, CellResult] = {}
+    tasks = [(problem, entries, c) for c in trial]
+    for k, c in run_tasks(_cell_job, tasks, jobs, executor):
+        out[k] = c
+        if progress is not None:
+            progress(
+                ProgressEvent(
+                    "cells",
+                    len(out),
+                    len(trial),
+                    0,
+                    f"cell ({c.ci}, {c.cj}) for the bilinear rule: {c.rule}, pad "
+                    f"{c.done_pad_ticks} ticks, margin {c.min_margin_log:.3f} log over "
+                    f"{c.samples} reference runs",
+                )
+            )
+    return tuple(out[k] for k in range(len(trial)))
 
 
 def _cell_job(problem: Problem, entries: dict[str, Any], cell: CellResult) -> CellResult:

@@ -5,10 +5,9 @@
 
 from __future__ import annotations
 
-import multiprocessing
 from collections.abc import Callable
-from concurrent.futures import ProcessPoolExecutor, as_completed
-from dataclasses import replace
+from concurrent.futures import Executor
+from dataclasses import dataclass, replace
 
 import numpy as np
 
@@ -21,16 +20,48 @@ from obvert.plan.ocp import Member, PlanError, Planner, PlanResult
 from obvert.plan.quantize import quantize
 from obvert.problem.model import Case, Problem
 from obvert.spec.model import Spec
+from obvert.table.executor import run_tasks
 from obvert.table.model import Candidate, Node
 
-Progress = Callable[[str], None]
+
+@dataclass(frozen=True)
+class ProgressEvent:
+    """How far a build has come.
+
+    Attributes
+    ----------
+    stage : str
+        ``nodes`` (planning and certifying nodes) or ``cells`` (certifying cells).
+    done : int
+        Units of the stage finished so far (nodes or cells).
+    total : int
+        Units of the stage in all.
+    failures : int
+        Candidate solves (flip counts) that failed so far; such a candidate is never used.
+    message : str
+        One line on what just finished, units included.
+    """
+
+    stage: str
+    done: int
+    total: int
+    failures: int
+    message: str
+
+
+Progress = Callable[[ProgressEvent], None]
 
 
 class BuildError(RuntimeError):
     """A grid node could not be planned or certified; nothing may be emitted."""
 
 
-def build(problem: Problem, progress: Progress | None = None, jobs: int = 1) -> tuple[Node, ...]:
+def build(
+    problem: Problem,
+    progress: Progress | None = None,
+    jobs: int = 1,
+    executor: Executor | None = None,
+) -> tuple[Node, ...]:
     """Plan, quantise and certify every node of the problem's grid.
 
     Parameters
@@ -38,10 +69,12 @@ def build(problem: Problem, progress: Progress | None = None, jobs: int = 1) -> 
     problem : Problem
         The spec turned into physics (:func:`obvert.problem.problem_of`).
     progress : callable, optional
-        Called with a one-line message as work proceeds.
+        Called with a :class:`ProgressEvent` as each thickness row finishes.
     jobs : int
-        Worker processes; rows of equal thickness are independent and are built in
-        parallel when ``jobs > 1``. The result does not depend on ``jobs``.
+        Local worker processes (1: in this process); rows of equal thickness are
+        independent tasks. The result does not depend on ``jobs`` or ``executor``.
+    executor : concurrent.futures.Executor, optional
+        Runs the rows instead of local processes (e.g. a Dask client's executor).
 
     Returns
     -------
@@ -54,30 +87,32 @@ def build(problem: Problem, progress: Progress | None = None, jobs: int = 1) -> 
         A node has no solvable flip count, or its schedule cannot be certified.
     """
     spec = problem.spec
-    say = progress or (lambda _msg: None)
-    n_t = len(spec.grid.thickness_m)
-    workers = max(1, min(int(jobs), n_t))
+    n_t, n_s = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
     rows: dict[int, list[Node]] = {}
-    if workers == 1:
-        for i in range(n_t):
-            rows[i] = _row(problem, i, say)
-    else:
-        ctx = multiprocessing.get_context("spawn")
-        with ProcessPoolExecutor(max_workers=workers, mp_context=ctx) as pool:
-            futures = {pool.submit(_row, problem, i, None): i for i in range(n_t)}
-            say(f"building {n_t} thickness rows in {workers} processes")
-            for fut in as_completed(futures):
-                i = futures[fut]
-                rows[i] = fut.result()
-                say(f"row {i + 1}/{n_t} done: {spec.grid.thickness_m[i] * 1e3:g} mm")
+    failures = 0
+    tasks = [(problem, i) for i in range(n_t)]
+    for i, row in run_tasks(_row, tasks, jobs, executor):
+        rows[i] = row
+        failures += sum(c.planned_cook_time_s is None for n in row for c in n.candidates)
+        if progress is not None:
+            longest = max(n.schedule.done_s for n in row)
+            progress(
+                ProgressEvent(
+                    "nodes",
+                    len(rows) * n_s,
+                    n_t * n_s,
+                    failures,
+                    f"{spec.grid.thickness_m[i] * 1e3:g} mm row certified "
+                    f"(longest cook {longest:.1f} s)",
+                )
+            )
     return tuple(node for i in range(n_t) for node in rows[i])
 
 
-def _row(problem: Problem, i: int, say: Progress | None) -> list[Node]:
+def _row(problem: Problem, i: int) -> list[Node]:
     """All nodes of thickness row ``i`` (one planner, reused across start temperatures)."""
     spec = problem.spec
     thick = spec.grid.thickness_m[i]
-    n_s = len(spec.grid.start_temp_c)
     grid = Grid(spec.planning.elements_per_phase)
     req, gap = problem.requirement, spec.appliance.min_event_gap_s
     members = [Member(problem.reduced_model(s, thick), s.env) for s in problem.scenarios]
@@ -89,9 +124,6 @@ def _row(problem: Problem, i: int, say: Progress | None) -> list[Node]:
     limits = BoundPlanners(members[0].model, members[0].env, req, grid)
     out = []
     for j, t0 in enumerate(spec.grid.start_temp_c):
-        if say is not None:
-            n_all = len(spec.grid.thickness_m) * n_s
-            say(f"node {i * n_s + j + 1}/{n_all}: {thick * 1e3:g} mm, {t0:g} degC")
         cases = list(problem.cases_at(thick, t0))
         node = _node(problem, planner, cases, i, j, (thick, t0))
         t_worst = cases[0].start_temp_c
