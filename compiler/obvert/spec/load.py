@@ -65,9 +65,7 @@ def _food(sec: Section) -> FoodSpec:
         raise SpecError(
             sec.path, sorted(sec.data), "exactly one of [food.composition] or [food.measured]"
         )
-    fp = sec.qty("freezing_point", "temperature", None)
-    if fp is not None:
-        _range_check(sec._p("freezing_point"), fp, -10.0, 0.0, "degC")
+    fp = sec.bounded("freezing_point", "temperature", -10.0, 0.0, "degC", None)
     k_model = sec.raw("conductivity_model", "levy_ice")
     if k_model not in CONDUCTIVITY_MODELS:
         allowed = f"one of {list(CONDUCTIVITY_MODELS)}"
@@ -140,27 +138,19 @@ def _appliance(sec: Section) -> ApplianceSpec:
     kind = sec.text("kind", "flipping_griddle")
     if kind not in APPLIANCE_KINDS:
         raise SpecError(sec._p("kind"), kind, f"one of {list(APPLIANCE_KINDS)}")
-    q, p = sec.qty, sec._p
+    p = sec._p
     htc = "heat_transfer_coefficient"
-    plate = _range_check(
-        p("plate_temperature"), q("plate_temperature", "temperature"), 60.0, 300.0, "degC"
-    )
-    contact = _range_check(
-        p("contact_coefficient"), q("contact_coefficient", htc), 10.0, 5000.0, "W/(m^2*K)"
-    )
-    air_t = _range_check(
-        p("air_temperature"), q("air_temperature", "temperature"), -10.0, 200.0, "degC"
-    )
-    air_h = _range_check(p("air_coefficient"), q("air_coefficient", htc), 0.0, 500.0, "W/(m^2*K)")
-    gap = _range_check(p("min_event_gap"), q("min_event_gap", "time"), 0.0, 600.0, "s")
-    tick = _range_check(p("tick"), q("tick", "time"), 0.001, 1.0, "s")
+    plate = sec.bounded("plate_temperature", "temperature", 60.0, 300.0, "degC")
+    contact = sec.bounded("contact_coefficient", htc, 10.0, 5000.0, "W/(m^2*K)")
+    air_t = sec.bounded("air_temperature", "temperature", -10.0, 200.0, "degC")
+    air_h = sec.bounded("air_coefficient", htc, 0.0, 500.0, "W/(m^2*K)")
+    gap = sec.bounded("min_event_gap", "time", 0.0, 600.0, "s")
+    tick = sec.bounded("tick", "time", 0.001, 1.0, "s")
     if kind == "clamshell":
-        flip_air = _range_check(
-            p("flip_air_time"), q("flip_air_time", "time", "1 s"), 0.1, 30.0, "s"
-        )
+        flip_air = sec.bounded("flip_air_time", "time", 0.1, 30.0, "s", "1 s")
         max_flips = sec.integer("max_flips", 0, 0, 0)
     else:
-        flip_air = _range_check(p("flip_air_time"), q("flip_air_time", "time"), 0.1, 30.0, "s")
+        flip_air = sec.bounded("flip_air_time", "time", 0.1, 30.0, "s")
         max_flips = sec.integer("max_flips", 0, 8)
     platen_t = platen_h = None
     if kind == "flipping_griddle":
@@ -168,16 +158,8 @@ def _appliance(sec: Section) -> ApplianceSpec:
             if sec.has(key):
                 raise SpecError(p(key), sec.data[key], "nothing: a flipping griddle has no platen")
     else:
-        platen_t = _range_check(
-            p("platen_temperature"), q("platen_temperature", "temperature"), 60.0, 300.0, "degC"
-        )
-        platen_h = _range_check(
-            p("platen_contact_coefficient"),
-            q("platen_contact_coefficient", htc),
-            10.0,
-            5000.0,
-            "W/(m^2*K)",
-        )
+        platen_t = sec.bounded("platen_temperature", "temperature", 60.0, 300.0, "degC")
+        platen_h = sec.bounded("platen_contact_coefficient", htc, 10.0, 5000.0, "W/(m^2*K)")
     out = ApplianceSpec(
         name=sec.text("name"),
         kind=kind,
@@ -221,12 +203,11 @@ def _safety(sec: Section) -> SafetySpec:
         default_lr = ...
         if not (d_ref > 0 and z > 0):
             raise SpecError(sec.path, {"d_ref": d_ref, "z": z}, "positive D and z values")
-    lr = sec.number("log_reduction", 0.5, 15.0, default_lr)
-    min_t = sec.qty("min_temperature", "temperature", None)
-    if min_t is not None:
-        _range_check(sec._p("min_temperature"), min_t, 40.0, 100.0, "degC")
-    carry = sec.qty("carry_over", "time", None) or 0.0
-    _range_check(sec._p("carry_over"), carry, 0.0, 600.0, "s")
+    lr = sec.number("log_reduction", 0.0, 15.0, default_lr)
+    if lr <= 0.0:
+        raise SpecError(sec._p("log_reduction"), sec.raw("log_reduction"), "a number > 0 and <= 15")
+    min_t = sec.bounded("min_temperature", "temperature", 40.0, 100.0, "degC", None)
+    carry = sec.bounded("carry_over", "time", 0.0, 600.0, "s", "0 s")
     cap_c = (
         90.0 if cap is None else _range_check(sec._p("lethality_cap"), cap, t_ref, 150.0, "degC")
     )
@@ -237,18 +218,13 @@ def _safety(sec: Section) -> SafetySpec:
 def _planning(sec: Section | None) -> PlanningSpec:
     if sec is None:
         sec = Section({}, "planning")
-    cost = sec.qty("flip_cost", "time", None)
     out = PlanningSpec(
-        flip_cost_s=_range_check(
-            sec._p("flip_cost"), 0.0 if cost is None else cost, 0.0, 600.0, "s"
-        ),
+        flip_cost_s=sec.bounded("flip_cost", "time", 0.0, 600.0, "s", "0 s"),
         spectral_nodes=sec.integer("spectral_nodes", 6, 32, 16),
         lethality_points=_lethality_points(sec),
         elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
         reference_cells=sec.integer("reference_cells", 40, 2000, 200),
-        reference_step_s=_range_check(
-            sec._p("reference_step"), sec.qty("reference_step", "time", "50 ms"), 0.005, 1.0, "s"
-        ),
+        reference_step_s=sec.bounded("reference_step", "time", 0.005, 1.0, "s", "50 ms"),
         calibration_rounds=sec.integer("calibration_rounds", 0, 8, 3),
     )
     sec.done()
@@ -308,16 +284,30 @@ def load_spec(path: str | Path) -> Spec:
     """
     p = Path(path)
     try:
-        text = p.read_text(encoding="utf-8")
+        data = p.read_bytes()
     except OSError as exc:
         raise SpecError("file", str(p), f"a readable spec file ({exc.strerror})") from None
+    try:
+        text = data.decode("utf-8-sig")  # a byte-order mark is harmless: dropped
+    except UnicodeDecodeError as exc:
+        raise SpecError(
+            "file", str(p), f"UTF-8 text (byte {exc.start} is not UTF-8: save the file as UTF-8)"
+        ) from None
     return loads_spec(text, str(p))
 
 
 def loads_spec(text: str, source: str = "<spec>") -> Spec:
     """Parse spec TOML text (``source`` names it in errors)."""
+    text = text.removeprefix("\ufeff")
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
         raise SpecError("file", source, f"valid TOML ({exc})") from None
+    if not data:
+        raise SpecError(
+            "file",
+            source,
+            "a spec: the file has no keys (sections [table], [food], [grid], "
+            "[appliance] and [safety] are required)",
+        )
     return spec_from_dict(data)

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import difflib
 import math
 from typing import Any
 
@@ -31,9 +32,16 @@ class Section:
         self.used.add(key)
         if key not in self.data:
             if default is ...:
-                raise SpecError(self._p(key), None, "a value (the field is required)")
+                near = self._near(key, set(self.data) - self.used)
+                hint = f"; the spec has {near!r} instead: a misspelling?" if near else ""
+                raise SpecError(self._p(key), None, f"a value: the field is required{hint}")
             return default
         return self.data[key]
+
+    @staticmethod
+    def _near(word: str, candidates: set[str]) -> str | None:
+        match = difflib.get_close_matches(word, sorted(candidates), n=1, cutoff=0.6)
+        return match[0] if match else None
 
     def section(self, key: str, required: bool = True) -> Section | None:
         """The sub-table ``key`` (None when optional and absent)."""
@@ -48,6 +56,21 @@ class Section:
         if value is None:
             return None
         return quantity(value, self._p(key), kind)
+
+    def bounded(
+        self, key: str, kind: str, lo: float, hi: float, unit: str, default: object = ...
+    ) -> Any:
+        """A quantity with a unit in ``[lo, hi]`` SI units of ``kind`` (None if defaulted so).
+
+        An error echoes the value as the spec wrote it, and the allowed range in ``unit``.
+        """
+        value = self.raw(key, default)
+        if value is None:
+            return None
+        si = quantity(value, self._p(key), kind)
+        if si is None or not math.isfinite(si) or not lo <= si <= hi:
+            raise SpecError(self._p(key), value, f"{lo:g} to {hi:g} {unit}")
+        return si
 
     def number(self, key: str, lo: float, hi: float, default: object = ...) -> float:
         """A bare number in ``[lo, hi]``."""
@@ -75,6 +98,10 @@ class Section:
         """Refuse every key of the table that was not read."""
         extra = sorted(set(self.data) - self.used)
         if extra:
+            near = self._near(extra[0], self.used)
+            hint = f" (nearest: {near!r})" if near else ""
             raise SpecError(
-                self._p(extra[0]), self.data[extra[0]], f"one of the known keys {sorted(self.used)}"
+                self._p(extra[0]),
+                self.data[extra[0]],
+                f"no such key here{hint}; known keys: {', '.join(sorted(self.used))}",
             )

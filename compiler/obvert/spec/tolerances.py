@@ -5,7 +5,6 @@ from __future__ import annotations
 from typing import TYPE_CHECKING
 
 from obvert.spec.errors import SpecError
-from obvert.spec.errors import range_check as _range_check
 from obvert.spec.model import FoodSpec, ToleranceSpec
 
 if TYPE_CHECKING:
@@ -18,15 +17,17 @@ def tolerances_section(sec: Section | None, food: FoodSpec) -> ToleranceSpec:
         return ToleranceSpec()
 
     def diff(key: str, kind: str, hi: float, unit: str) -> float:
-        v = sec.qty(key, kind, None)
-        return 0.0 if v is None else _range_check(sec._p(key), v, 0.0, hi, unit)
+        v = sec.bounded(key, kind, 0.0, hi, unit, None)
+        return 0.0 if v is None else float(v)
 
     offset = diff("plate_offset", "temperature_difference", 60.0, "K")
     droop = diff("plate_droop", "temperature_difference", 60.0, "K")
-    rec = sec.qty("plate_recovery", "time", None)
-    recovery = 30.0 if rec is None else _range_check(sec._p("plate_recovery"), rec, 0.1, 600.0, "s")
+    rec = sec.bounded("plate_recovery", "time", 0.1, 600.0, "s", None)
+    recovery = 30.0 if rec is None else float(rec)
     if rec is not None and droop == 0.0:
-        raise SpecError(sec._p("plate_recovery"), rec, "only together with plate_droop > 0")
+        raise SpecError(
+            sec._p("plate_recovery"), sec.raw("plate_recovery"), "only with plate_droop > 0"
+        )
     contact = sec.number("contact_low", 0.0, 0.5, 0.0)
     thick = diff("thickness_error", "length", 0.005, "m")
     temp = diff("start_temp_error", "temperature_difference", 10.0, "K")
