@@ -6,6 +6,7 @@ names the field path, the value and what is allowed.
 
 from __future__ import annotations
 
+import math
 import re
 import sys
 from pathlib import Path
@@ -37,23 +38,43 @@ else:  # pragma: no cover
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,39}$")
 
 
-def _property(sec: Section, key: str, kind: str) -> PropertyValue:
+#: Ranges of measured properties a food can have: (kind, low, high, unit), in SI units.
+#: Conductivity from fat (about 0.2) to ice (2.2 W/(m K)); specific heat from dry solids to
+#: water; density from a foamed product to bone (common practice).
+MEASURED_RANGES = {
+    "conductivity": ("conductivity", 0.05, 3.0, "W/(m*K)"),
+    "density": ("density", 300.0, 2000.0, "kg/m^3"),
+    "specific_heat": ("specific_heat", 500.0, 6000.0, "J/(kg*K)"),
+}
+
+
+def _property(sec: Section, key: str) -> PropertyValue:
+    kind, lo, hi, unit = MEASURED_RANGES[key]
     raw = sec.raw(key)
     path = sec._p(key)
+
+    def value(v: object, where: str) -> float:
+        si = quantity(v, where, kind)
+        if not math.isfinite(si) or not lo <= si <= hi:
+            raise SpecError(where, v, f"{lo:g} to {hi:g} {unit}")
+        return si
+
     if isinstance(raw, str):
-        return quantity(raw, path, kind)
+        return value(raw, path)
     if not isinstance(raw, list) or len(raw) < 2:
         raise SpecError(path, raw, "a value with a unit, or a list of [temperature, value] pairs")
     pairs = []
     for i, item in enumerate(raw):
         if not isinstance(item, list) or len(item) != 2:
             raise SpecError(f"{path}[{i}]", item, "a pair [temperature, value]")
-        pairs.append(
-            (
-                quantity(item[0], f"{path}[{i}][0]", "temperature"),
-                quantity(item[1], f"{path}[{i}][1]", kind),
+        t = quantity(item[0], f"{path}[{i}][0]", "temperature")
+        if not -40.0 <= t <= 300.0:
+            raise SpecError(f"{path}[{i}][0]", item[0], "-40 to 300 degC")
+        if pairs and t <= pairs[-1][0]:
+            raise SpecError(
+                f"{path}[{i}][0]", item[0], "a temperature above the previous pair's (ascending)"
             )
-        )
+        pairs.append((t, value(item[1], f"{path}[{i}][1]")))
     return tuple(pairs)
 
 
@@ -91,13 +112,16 @@ def _food(sec: Section) -> FoodSpec:
         comp_sec.done()
     else:
         assert meas_sec is not None  # noqa: S101 - narrowed above, not user input
-        mfp = meas_sec.qty("freezing_point", "temperature", None)
+        mfp = meas_sec.bounded("freezing_point", "temperature", -10.0, 0.0, "degC", None)
         measured = MeasuredProperties(
-            conductivity=_property(meas_sec, "conductivity", "conductivity"),
-            density=_property(meas_sec, "density", "density"),
-            specific_heat=_property(meas_sec, "specific_heat", "specific_heat"),
+            conductivity=_property(meas_sec, "conductivity"),
+            density=_property(meas_sec, "density"),
+            specific_heat=_property(meas_sec, "specific_heat"),
             freezing_point_c=mfp,
-            latent_heat_j_per_kg=meas_sec.qty("latent_heat", "specific_energy", "0 J/kg"),
+            # at most water's latent heat of fusion, 333.6 kJ/kg (a food is partly water)
+            latent_heat_j_per_kg=meas_sec.bounded(
+                "latent_heat", "specific_energy", 0.0, 333.6e3, "J/kg", "0 J/kg"
+            ),
         )
         meas_sec.done()
     sec.done()
