@@ -138,12 +138,20 @@ def step_count(duration_s: float, dt_max_s: float) -> int:
 # ----------------------------------------------------------------------------- lookups
 
 
-@numba.njit(cache=True)
-def _segment(e: float, e_in: Array, base: NDArray[np.int64], nxt: Array, lim: Array) -> int:
+@numba.njit(cache=True, inline="always")
+def _segment(
+    e: float,
+    e_in: Array,
+    base: NDArray[np.int64],
+    nxt: Array,
+    e_lo: float,
+    inv_width: float,
+    bucketed: bool,
+) -> int:
     """Table segment of enthalpy ``e`` (J/m^3), as ``searchsorted(e_in, e, 'right')``."""
-    if lim[_BUCKETED] == 0.0:
+    if not bucketed:
         return np.searchsorted(e_in, e, side="right")
-    x = (e - lim[_E_LO]) * lim[_INV_WIDTH]
+    x = (e - e_lo) * inv_width
     top = base.size - 1
     i = 0
     if x >= top:
@@ -159,9 +167,10 @@ def _segment(e: float, e_in: Array, base: NDArray[np.int64], nxt: Array, lim: Ar
 @numba.njit(cache=True)
 def _segments(e: Array, e_in: Array, base: NDArray[np.int64], nxt: Array, lim: Array) -> Array:
     """:func:`_segment` of every entry of ``e``."""
+    e_lo, inv_width, bucketed = lim[_E_LO], lim[_INV_WIDTH], lim[_BUCKETED] != 0.0
     out = np.empty(e.size, dtype=np.int64)
     for i in range(e.size):
-        out[i] = _segment(e[i], e_in, base, nxt, lim)
+        out[i] = _segment(e[i], e_in, base, nxt, e_lo, inv_width, bucketed)
     return out
 
 
@@ -169,26 +178,29 @@ def _segments(e: Array, e_in: Array, base: NDArray[np.int64], nxt: Array, lim: A
 def _cells(lk: tuple, y: Array, n: int, wk: Array) -> None:
     """T (degC), du/dE, dT/dE and u (W/m) of cells 0..n-1 of ``y`` into rows of ``wk``."""
     seg, e_in, _, base, nxt, lim = lk
+    e_lo, inv_width, bucketed = lim[_E_LO], lim[_INV_WIDTH], lim[_BUCKETED] != 0.0
     for i in range(n):
         e = y[i + 1]
-        s = seg[_segment(e, e_in, base, nxt, lim)]
-        sl = s[_SL]
-        d = sl * (e - s[_E0])
-        k = s[_K0] + s[_DK] * d
-        wk[_TC, i] = s[_T0] + d
+        j = _segment(e, e_in, base, nxt, e_lo, inv_width, bucketed)
+        sl = seg[j, _SL]
+        k0 = seg[j, _K0]
+        d = sl * (e - seg[j, _E0])
+        k = k0 + seg[j, _DK] * d
+        wk[_TC, i] = seg[j, _T0] + d
         wk[_W, i] = k * sl
         wk[_SLC, i] = sl
-        wk[_U, i] = s[_U0] + 0.5 * d * (s[_K0] + k)
+        wk[_U, i] = seg[j, _U0] + 0.5 * d * (k0 + k)
 
 
 @numba.njit(cache=True)
 def _surface(lk: tuple, t: float) -> tuple[float, float]:
     """Return k (W/m/K) and u (W/m) at one temperature t (degC)."""
     seg, _, t_in, _, _, _ = lk
-    s = seg[np.searchsorted(t_in, t, side="right")]
-    d = t - s[_T0]
-    k = s[_K0] + s[_DK] * d
-    return k, s[_U0] + 0.5 * d * (s[_K0] + k)
+    j = np.searchsorted(t_in, t, side="right")
+    k0 = seg[j, _K0]
+    d = t - seg[j, _T0]
+    k = k0 + seg[j, _DK] * d
+    return k, seg[j, _U0] + 0.5 * d * (k0 + k)
 
 
 @numba.njit(cache=True)
@@ -235,20 +247,21 @@ def _thomas(n2: int, wk: Array) -> bool:
     den = dd[0]
     if den == 0.0:
         return False
-    c[0] = up[0] / den
-    x[0] = r[0] / den
+    piv = 1.0 / den
+    c[0] = up[0] * piv
+    x[0] = r[0] * piv
     for j in range(1, n2):
         den = dd[j] - lo[j] * c[j - 1]
         if den == 0.0:
             return False
-        c[j] = up[j] / den
-        x[j] = (r[j] - lo[j] * x[j - 1]) / den
+        piv = 1.0 / den
+        c[j] = up[j] * piv
+        x[j] = (r[j] - lo[j] * x[j - 1]) * piv
+    finite = math.isfinite(x[n2 - 1])
     for j in range(n2 - 2, -1, -1):
         x[j] -= c[j] * x[j + 1]
-    for j in range(n2):
-        if not math.isfinite(x[j]):
-            return False
-    return True
+        finite &= math.isfinite(x[j])
+    return finite
 
 
 @numba.njit(cache=True)
@@ -276,6 +289,7 @@ def _stage(
     so these estimates bound the remaining error in K. Returns (converged, last estimate K).
     """
     lim = lk[5]
+    e_lo, e_hi = lim[_E_LO], lim[_E_HI]
     a = wdt * inv * inv
     wdt_inv = wdt * inv
     res, f, base, sl, w = wk[_RES], wk[_F], wk[_BASE], wk[_SLC], wk[_W]
@@ -323,7 +337,7 @@ def _stage(
             return False, err
         dy = wk[_DY]
         for i in range(1, n + 1):
-            y[i] = min(max(y[i] + dy[i], lim[_E_LO]), lim[_E_HI])
+            y[i] = min(max(y[i] + dy[i], e_lo), e_hi)
         y[0] = min(max(y[0] + dy[0], lim[_T_LO]), lim[_T_HI])
         y[n + 1] = min(max(y[n + 1] + dy[n + 1], lim[_T_LO]), lim[_T_HI])
     return False, err
@@ -507,18 +521,20 @@ def _advance(
 # ------------------------------------------------------------------- per-cell accumulators
 
 
-@numba.njit(cache=True)
-def _kill_rate(t: float, kin: Array) -> float:
+@numba.njit(cache=True, inline="always")
+def _kill_rate(t: float, d_ref: float, t_ref: float, z: float, cap: float) -> float:
     """Lethality rate at t (degC), log10 reductions per second (log-linear D/z kinetics)."""
-    return 10.0 ** ((min(t, kin[_CAP]) - kin[_T_REF]) / kin[_Z]) / kin[_D_REF]
+    return 10.0 ** ((min(t, cap) - t_ref) / z) / d_ref
 
 
 @numba.njit(cache=True)
 def _start_accumulators(temp: Array, n: int, kin: Array, wk: Array) -> None:
     """Per-cell rates at the start of a phase from cell temperatures ``temp[1:n+1]``."""
     if kin[_KILL_ON] != 0.0:
+        d_ref, t_ref, z, cap = kin[_D_REF], kin[_T_REF], kin[_Z], kin[_CAP]
+        r_old = wk[_ROLD]
         for i in range(n):
-            wk[_ROLD, i] = _kill_rate(temp[i + 1], kin)
+            r_old[i] = _kill_rate(temp[i + 1], d_ref, t_ref, z, cap)
 
 
 @numba.njit(cache=True)
@@ -529,10 +545,11 @@ def _accumulate(acc: Array, temp: Array, n: int, dt: float, kin: Array, wk: Arra
     rates at the step start and is advanced to the step end.
     """
     if kin[_KILL_ON] != 0.0:
-        r_old = wk[_ROLD]
+        d_ref, t_ref, z, cap = kin[_D_REF], kin[_T_REF], kin[_Z], kin[_CAP]
+        r_old, lr = wk[_ROLD], acc[ACC_LOG_REDUCTION]
         for i in range(n):
-            r_new = _kill_rate(temp[i + 1], kin)
-            acc[ACC_LOG_REDUCTION, i] = acc[ACC_LOG_REDUCTION, i] + 0.5 * dt * (r_old[i] + r_new)
+            r_new = _kill_rate(temp[i + 1], d_ref, t_ref, z, cap)
+            lr[i] = lr[i] + 0.5 * dt * (r_old[i] + r_new)
             r_old[i] = r_new
 
 
