@@ -15,7 +15,11 @@ the time of each implicit stage. The log reduction of a
 :class:`~obvert.food.lethality.LethalityModel` is integrated in every cell by the trapezoid
 rule on the step ends. Second order in space and time (verified in ``tests/physics``).
 
-Run time: about 1 s for a 300 s cook at the defaults (200 cells, 0.05 s), one core.
+The same compiled kernel (:func:`obvert.thermal.kernel.run_case`) runs the summaries of
+:func:`obvert.thermal.batch.simulate_many`. Run time: about 0.2 s for a 300 s cook at the
+defaults (200 cells, 0.05 s), one core, once the kernel is loaded; the first call in a process
+loads it from numba's cache (about 1 s) or, with an empty cache, compiles it (under a minute).
+Figures from ``tests/bench/batch_reference.py``.
 """
 
 from __future__ import annotations
