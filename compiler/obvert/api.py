@@ -83,6 +83,43 @@ def _profiles(targets: Targets | None, spec: Spec | None) -> list[TargetProfile]
     return [t if isinstance(t, TargetProfile) else load_target(t) for t in targets]
 
 
+def output_names(spec: Spec, targets: Targets | None = None) -> dict[str, str]:
+    """The file each target will write for ``spec``, checked for clashes before any work.
+
+    Parameters
+    ----------
+    spec : Spec
+        The spec to be built.
+    targets : TargetProfile, str or sequence of them, optional
+        Default: the spec's ``outputs.targets``.
+
+    Returns
+    -------
+    dict of str to str
+        File name to the target that writes it.
+
+    Raises
+    ------
+    EmitError
+        Two different targets would write the same file name.
+    ProfileError
+        A target that does not exist or is malformed.
+    """
+    owner: dict[str, TargetProfile] = {}
+    for prof in _profiles(targets, spec):
+        names = {"table": spec.name, "prefix": prof.prefix_for(spec.name)}
+        for out in prof.outputs:
+            name = out.filename.format(**names)
+            other = owner.get(name)
+            if other is not None and other != prof:
+                raise EmitError(
+                    f"targets {other.name!r} and {prof.name!r} both write {name!r}: "
+                    "build them into different --out folders, or choose one"
+                )
+            owner[name] = prof
+    return {name: prof.name for name, prof in owner.items()}
+
+
 def compile_table(
     spec: Spec,
     targets: Targets | None = None,
@@ -90,6 +127,7 @@ def compile_table(
     progress: Progress | None = None,
     jobs: int = 1,
     executor: Executor | None = None,
+    isolate: bool = False,
 ) -> CookTable:
     """Plan and certify every node of ``spec``, and every cell the targets' lookups use.
 
@@ -108,6 +146,9 @@ def compile_table(
     executor : concurrent.futures.Executor, optional
         Runs the work instead, e.g. ``distributed.Client(address).get_executor()``. The
         result does not depend on ``jobs`` or ``executor``.
+    isolate : bool
+        Run even one job in a worker process, so that an interrupt (Ctrl-C, SIGTERM) of
+        this process stops the work within moments (a solver here may swallow Ctrl-C).
 
     Returns
     -------
@@ -130,7 +171,7 @@ def compile_table(
     [True]
     """
     rules = sorted({"corner", *(p.lookup for p in _profiles(targets, spec))})
-    return _compile(spec, rules, progress, jobs=jobs, executor=executor)
+    return _compile(spec, rules, progress, jobs=jobs, executor=executor, isolate=isolate)
 
 
 def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -> dict[str, bytes]:

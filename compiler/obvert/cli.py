@@ -9,6 +9,7 @@ from __future__ import annotations
 import contextlib
 import math
 import os
+import signal
 import sys
 import tempfile
 import time
@@ -34,6 +35,37 @@ def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
             staged.append((path, out_dir / name))
         for src, dst in staged:
             os.replace(src, dst)
+
+
+class _Terminated(BaseException):
+    """SIGTERM arrived: unwinds the build like Ctrl-C, so that workers are stopped."""
+
+
+@contextlib.contextmanager
+def _terminate_as_exception() -> Iterator[None]:
+    def handler(_signum: int, _frame: object) -> None:
+        raise _Terminated()
+
+    previous = signal.signal(signal.SIGTERM, handler)
+    try:
+        yield
+    finally:
+        signal.signal(signal.SIGTERM, previous)
+
+
+def _writable_folder(out_dir: Path) -> str:
+    """Why files could not be written into ``out_dir`` (empty: they can); creates nothing."""
+    here = out_dir.resolve()
+    while not here.exists():
+        here = here.parent
+    if not here.is_dir():
+        return f"{str(here)!r} is a file, not a folder"
+    try:  # a probe file, removed at once: permissions alone say nothing to root
+        with tempfile.TemporaryFile(dir=here):
+            pass
+    except OSError as exc:
+        return f"cannot write in {str(here)!r} ({exc.strerror})"
+    return ""
 
 
 class _ProgressLine:
@@ -143,9 +175,10 @@ def build_cmd(
     quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
-    from obvert.api import compile_table, demo_spec, emit
+    from obvert.api import compile_table, demo_spec, emit, output_names
     from obvert.emitter import EmitError, ProfileError, load_target
     from obvert.firmware import ManifestError
+    from obvert.problem.model import sequences
     from obvert.review.summary import summary
     from obvert.spec import SpecError, load_spec
     from obvert.table import BuildError, CellCertificationError, manifest
@@ -153,9 +186,22 @@ def build_cmd(
     try:
         spec = load_spec(spec_file) if spec_file is not None else demo_spec(demo)
         profiles = [load_target(t) for t in (targets or spec.targets)]
-    except (SpecError, ProfileError) as exc:
+        output_names(spec, profiles)
+    except (SpecError, ProfileError, EmitError) as exc:
         click.echo(f"error: {exc}", err=True)
         sys.exit(2)
+    problem = _writable_folder(out_dir)
+    if problem:
+        click.echo(f"error: --out {str(out_dir)!r}: {problem}; nothing was built", err=True)
+        sys.exit(2)
+    if not quiet:
+        n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
+        n_seq = len(sequences(spec))
+        click.echo(
+            f"work: {n_x} x {n_t} = {n_x * n_t} nodes, up to {n_seq} event sequences each, "
+            f"on {jobs} worker process(es)",
+            err=True,
+        )
     if spec_file is None and not quiet:
         click.echo(
             f"no spec given: building the built-in {demo} demo (invented product and appliance)",
@@ -163,12 +209,20 @@ def build_cmd(
         )
     progress = None if quiet else _ProgressLine()
     try:
-        with _executor(scheduler) as executor:
-            table = compile_table(spec, profiles, progress=progress, jobs=jobs, executor=executor)
+        with _executor(scheduler) as executor, _terminate_as_exception():
+            table = compile_table(
+                spec, profiles, progress=progress, jobs=jobs, executor=executor, isolate=True
+            )
     except (BuildError, CellCertificationError) as exc:
         click.echo(f"error: {exc}", err=True)
         click.echo("nothing was written", err=True)
         sys.exit(1)
+    except KeyboardInterrupt:
+        click.echo("interrupted (Ctrl-C): every worker stopped, nothing was written", err=True)
+        sys.exit(130)
+    except _Terminated:
+        click.echo("terminated (SIGTERM): every worker stopped, nothing was written", err=True)
+        sys.exit(143)
     try:
         files = emit(table, profiles)
     except (EmitError, ManifestError) as exc:

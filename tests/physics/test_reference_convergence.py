@@ -11,7 +11,7 @@ Sources
 A smooth temperature field T(x, t) is chosen; the volumetric source
 ``S = rho*cp(T) T_t - d/dx(k(T) T_x)`` and the extra face fluxes that make T satisfy the
 Robin/radiation conditions are added to the solver (through the verification-only forcing
-hook of ``obvert.thermal.reference._simulate``). k(T) and rho*cp(T) are nonlinear
+hook ``obvert.thermal.reference.simulate_forced``). k(T) and rho*cp(T) are nonlinear
 polynomials; the property table samples them exactly at its nodes with a 0.01 K step, whose
 interpolation error (below 1e-7 K) is far below the errors measured here.
 
@@ -25,7 +25,7 @@ import numpy as np
 
 from obvert.food.table import PropertyTable
 from obvert.thermal.boundary import STEFAN_BOLTZMANN, FaceBC, Phase
-from obvert.thermal.reference import ReferenceSettings, _simulate
+from obvert.thermal.reference import ReferenceSettings, simulate_forced
 
 L = 0.01  # slab thickness, m
 T_END = 10.0  # s
@@ -105,7 +105,9 @@ def errors(n_cells: int, dt: float) -> tuple[float, float]:
     x = (np.arange(n_cells) + 0.5) * L / n_cells
     settings = ReferenceSettings(n_cells=n_cells, dt_max_s=dt)
     start = field(x, 0.0)[0]
-    r = _simulate(smooth_table(), L, start, [Phase(T_END, FACE0, FACE1)], None, settings, forcing)
+    r = simulate_forced(
+        smooth_table(), L, start, [Phase(T_END, FACE0, FACE1)], None, settings, forcing
+    )
     exact = field(r.x_m[None, :], r.t_s[:, None])[0]
     cells = float(np.max(np.abs(r.temp_c - exact)))
     surface = float(np.max(np.abs(r.surface_c[:, 0] - field(0.0, r.t_s)[0])))
@@ -120,7 +122,7 @@ def test_manufactured_solution_is_consistent() -> None:
     # The forcing hook must matter: without the source the solution departs from T(x, t)
     # by far more than the discretisation errors below (guards against a vacuous test).
     x = (np.arange(40) + 0.5) * L / 40
-    r = _simulate(
+    r = simulate_forced(
         smooth_table(),
         L,
         field(x, 0.0)[0],

@@ -33,6 +33,7 @@ def compile_table(
     progress: Progress | None = None,
     jobs: int = 1,
     executor: Executor | None = None,
+    isolate: bool = False,
 ) -> CookTable:
     """Plan and certify every node, then every cell for each lookup rule in ``rules``.
 
@@ -49,6 +50,8 @@ def compile_table(
     executor : concurrent.futures.Executor, optional
         Runs the work instead of local processes (e.g. a Dask client's executor). The
         result does not depend on ``jobs`` or ``executor``.
+    isolate : bool
+        Run even one job in a worker process (an interrupt then stops the work at once).
 
     Raises
     ------
@@ -63,11 +66,11 @@ def compile_table(
         if r not in RULES:
             raise ValueError(f"rules: {r!r} is not a lookup rule; allowed {list(RULES)}")
     problem = problem_of(spec)
-    nodes = build(problem, progress, jobs=jobs, executor=executor)
+    nodes = build(problem, progress, jobs=jobs, executor=executor, isolate=isolate)
     entries = node_entries(spec, nodes)
     cells: dict[str, tuple[CellResult, ...]] = {"corner": tuple(corner_cells(entries))}
     if "bilinear" in rules and cells["corner"]:
-        cells["bilinear"] = _bilinear(problem, entries, progress, jobs, executor)
+        cells["bilinear"] = _bilinear(problem, entries, progress, jobs, executor, isolate)
     return CookTable(spec, nodes, tuple(sorted(cells.items())))
 
 
@@ -77,11 +80,12 @@ def _bilinear(
     progress: Progress | None,
     jobs: int,
     executor: Executor | None,
+    isolate: bool,
 ) -> tuple[CellResult, ...]:
     trial = trial_cells(entries)
     out: dict[int, CellResult] = {}
     tasks = [(problem, entries, c) for c in trial]
-    for k, c in run_tasks(_cell_job, tasks, jobs, executor):
+    for k, c in run_tasks(_cell_job, tasks, jobs, executor, isolate):
         out[k] = c
         if progress is not None:
             progress(

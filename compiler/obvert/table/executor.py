@@ -14,6 +14,7 @@ from __future__ import annotations
 import contextlib
 import multiprocessing
 import os
+import signal
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Executor, Future, ProcessPoolExecutor, as_completed
 from typing import Any, TypeVar
@@ -62,11 +63,21 @@ def _stop_local_workers(pool: ProcessPoolExecutor) -> None:
             child.kill()
 
 
+def _worker_init() -> None:
+    """Leave Ctrl-C to the parent, which stops the workers.
+
+    A terminal sends the interrupt to every process of the group, and a solver in a worker
+    may swallow it.
+    """
+    signal.signal(signal.SIGINT, signal.SIG_IGN)
+
+
 def run_tasks(
     fn: Callable[..., R],
     tasks: Sequence[tuple[Any, ...]],
     jobs: int = 1,
     executor: Executor | None = None,
+    isolate: bool = False,
 ) -> Iterator[tuple[int, R]]:
     """Run ``fn(*tasks[k])`` for every ``k``; yield ``(k, result)`` as each finishes.
 
@@ -80,6 +91,9 @@ def run_tasks(
         Local worker processes when no ``executor`` is given (1: in this process).
     executor : concurrent.futures.Executor, optional
         Runs the tasks instead (e.g. ``distributed.Client(address).get_executor()``).
+    isolate : bool
+        Run even a single job in a worker process, so that an interrupt of this process
+        stops the work at once (a numerical solver in this process may swallow Ctrl-C).
 
     Yields
     ------
@@ -97,13 +111,13 @@ def run_tasks(
             raise
         return
     workers = max(1, min(int(jobs), len(tasks)))
-    if workers == 1:
+    if workers == 1 and not isolate:
         for k, t in enumerate(tasks):
             yield k, fn(*t)
         return
     ctx = multiprocessing.get_context("spawn")
     with single_threaded_children():
-        pool = ProcessPoolExecutor(max_workers=workers, mp_context=ctx)
+        pool = ProcessPoolExecutor(max_workers=workers, mp_context=ctx, initializer=_worker_init)
         try:
             futures = {pool.submit(fn, *t): k for k, t in enumerate(tasks)}
             for fut in as_completed(futures):

@@ -61,6 +61,7 @@ def build(
     progress: Progress | None = None,
     jobs: int = 1,
     executor: Executor | None = None,
+    isolate: bool = False,
 ) -> tuple[Node, ...]:
     """Plan, quantise and certify every node of the problem's grid.
 
@@ -75,6 +76,8 @@ def build(
         independent tasks. The result does not depend on ``jobs`` or ``executor``.
     executor : concurrent.futures.Executor, optional
         Runs the rows instead of local processes (e.g. a Dask client's executor).
+    isolate : bool
+        Run even one job in a worker process (an interrupt then stops the work at once).
 
     Returns
     -------
@@ -91,7 +94,7 @@ def build(
     rows: dict[int, list[Node]] = {}
     failures = 0
     tasks = [(problem, i) for i in range(n_t)]
-    for i, row in run_tasks(_row, tasks, jobs, executor):
+    for i, row in run_tasks(_row, tasks, jobs, executor, isolate):
         rows[i] = row
         failures += sum(c.planned_cook_time_s is None for n in row for c in n.candidates)
         if progress is not None:

@@ -5,7 +5,7 @@ checked against it. The slab of thickness L lies on x in [0, L] with face 0 (x =
 plate. Properties come from a :class:`~obvert.food.table.PropertyTable` (k(T) and volumetric
 enthalpy E(T) including latent heat), so thawing is handled by the enthalpy formulation.
 
-Method (details in :mod:`obvert.thermal._fv`): cell-centred finite volumes on a uniform mesh
+Method (details in :mod:`obvert.thermal.kernel`): cell-centred finite volumes on a uniform mesh
 with the enthalpy of each cell as state, Kirchhoff-mean face conductivities, surface
 temperatures solved from the flux balance of each face, TR-BDF2 time stepping (second order,
 L-stable) with Newton iterations on a tridiagonal system, and equal steps within each phase so
@@ -15,7 +15,11 @@ the time of each implicit stage. The log reduction of a
 :class:`~obvert.food.lethality.LethalityModel` is integrated in every cell by the trapezoid
 rule on the step ends. Second order in space and time (verified in ``tests/physics``).
 
-Run time: about 1 s for a 300 s cook at the defaults (200 cells, 0.05 s), one core.
+The same compiled kernel (:func:`obvert.thermal.kernel.run_case`) runs the summaries of
+:func:`obvert.thermal.batch.simulate_many`. Run time: about 0.2 s for a 300 s cook at the
+defaults (200 cells, 0.05 s), one core, once the kernel is loaded; the first call in a process
+loads it from numba's cache (about 1 s) or, with an empty cache, compiles it (under a minute).
+Figures from ``tests/bench/batch_reference.py``.
 """
 
 from __future__ import annotations
@@ -29,13 +33,13 @@ from numpy.typing import ArrayLike, NDArray
 
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import PropertyTable
-from obvert.thermal import _fv
+from obvert.thermal import kernel
 from obvert.thermal.boundary import STEFAN_BOLTZMANN, FaceBC, Phase
 
 Array = NDArray[np.float64]
 
 #: Raised when the Newton iterations cannot be made to converge (re-exported).
-SolverDivergedError = _fv.SolverDivergedError
+SolverDivergedError = kernel.SolverDivergedError
 
 
 def _require(ok: bool, field: str, value: object, allowed: str) -> None:
@@ -171,9 +175,25 @@ def _check_face(face: FaceBC, field: str, lo: float, hi: float) -> None:
     )
 
 
-def _check_inputs(
+def check_inputs(
     table: PropertyTable, thickness_m: float, start: Array, phases: Sequence[Phase], n: int
 ) -> None:
+    """Raise ``ValueError`` naming the field and its value on invalid input of a cook.
+
+    Parameters
+    ----------
+    table : PropertyTable
+        Thermal properties of the food (its range bounds all temperatures).
+    thickness_m : float
+        Slab thickness, m (finite > 0).
+    start : ndarray, shape () or (n,)
+        Initial temperature, degC, within the table range.
+    phases : sequence of Phase
+        Non-empty; durations finite >= 0 s; faces with h >= 0, surroundings within the table
+        range even when drooped, emissivity in [0, 1].
+    n : int
+        Number of cells.
+    """
     lo, hi = float(table.temp_c[0]), float(table.temp_c[-1])
     _require(
         math.isfinite(thickness_m) and thickness_m > 0.0, "thickness_m", thickness_m, "finite > 0 m"
@@ -233,122 +253,76 @@ def simulate(
         If Newton fails even after halving a step 12 times (not seen in practice; a step is
         halved at all only for steps far above the default on thin slabs).
     """
-    return _simulate(table, thickness_m, start_temp_c, phases, lethality, settings)
+    return _run(table, thickness_m, start_temp_c, phases, lethality, settings, None)
 
 
-def _simulate(
+def simulate_forced(
     table: PropertyTable,
     thickness_m: float,
     start_temp_c: float | ArrayLike,
     phases: Sequence[Phase],
     lethality: LethalityModel | None,
     settings: ReferenceSettings,
-    forcing: _fv.Forcing | None = None,
+    forcing: kernel.Forcing | None,
 ) -> ReferenceResult:
-    """Run :func:`simulate`, optionally with a manufactured forcing (verification only)."""
+    """Run :func:`simulate` with a manufactured forcing added (verification only).
+
+    Parameters
+    ----------
+    table, thickness_m, start_temp_c, phases, lethality, settings
+        As for :func:`simulate`.
+    forcing : callable or None
+        ``(cell centres x_m, time s) -> (volumetric source per cell, W/m^3; extra heat flux
+        into the food at faces 0 and 1, W/m^2)``, evaluated at every phase start and at both
+        stage times of every step before the march (None: no forcing, as :func:`simulate`).
+
+    Returns
+    -------
+    ReferenceResult
+        As for :func:`simulate`.
+
+    Raises
+    ------
+    ValueError
+        On invalid input, naming the field and its value.
+    SolverDivergedError
+        If Newton fails (with a forcing a step cannot be halved: its stage times are fixed).
+    """
+    return _run(table, thickness_m, start_temp_c, phases, lethality, settings, forcing)
+
+
+def _run(
+    table: PropertyTable,
+    thickness_m: float,
+    start_temp_c: float | ArrayLike,
+    phases: Sequence[Phase],
+    lethality: LethalityModel | None,
+    settings: ReferenceSettings,
+    forcing: kernel.Forcing | None,
+) -> ReferenceResult:
+    """Check the inputs and march the cook, recording every step end."""
     n = settings.n_cells
     start = np.asarray(start_temp_c, dtype=float)
-    _check_inputs(table, float(thickness_m), start, phases, n)
-    props = _fv.Props(table)
-    mesh = _fv.Mesh.uniform(float(thickness_m), n, settings.newton_tol_k, settings.max_newton)
-    e0 = props.enthalpy(np.broadcast_to(start, (n,)).astype(float))
-    counts = [_fv.step_count(p.duration_s, settings.dt_max_s) for p in phases]
-    march = _March(props, mesh, forcing, lethality, sum(counts) + 1)
-    t0 = np.broadcast_to(start, (n,))
-    march.run(np.concatenate([t0[:1], e0, t0[-1:]]), list(phases), counts)
-    rows = march.rows
-    return ReferenceResult(
-        t_s=rows["t"],
-        temp_c=rows["temp"],
-        log_reduction=rows["lr"],
-        phase_index=rows["phase"],
-        x_m=mesh.x.copy(),
-        surface_c=rows["surface"],
-        mirrored=rows["mirrored"],
+    check_inputs(table, float(thickness_m), start, phases, n)
+    out = kernel.run_case(
+        kernel.PropertyLookup(table),
+        float(thickness_m),
+        np.broadcast_to(start, (n,)).astype(float),
+        list(phases),
+        lethality,
+        settings.dt_max_s,
+        settings.newton_tol_k,
+        settings.max_newton,
+        record=True,
+        removal_phase=len(phases) - 1,
+        forcing=forcing,
     )
-
-
-class _March:
-    """Time marching through the phases, recording every step end."""
-
-    def __init__(
-        self,
-        props: _fv.Props,
-        mesh: _fv.Mesh,
-        forcing: _fv.Forcing | None,
-        lethality: LethalityModel | None,
-        n_rows: int,
-    ) -> None:
-        self.props, self.mesh, self.lethality = props, mesh, lethality
-        n = mesh.n
-        self.src: _fv.Source = forcing if forcing is not None else (lambda x, t: None)
-        self.rows = {
-            "t": np.zeros(n_rows),
-            "temp": np.zeros((n_rows, n)),
-            "lr": np.zeros((n_rows, n)),
-            "surface": np.zeros((n_rows, 2)),
-            "phase": np.zeros(n_rows, dtype=np.int64),
-            "mirrored": np.zeros(n_rows, dtype=bool),
-        }
-        self.row = 0
-        self.lr = np.zeros(n)
-        self.mirrored = False
-
-    def _put(self, t_s: float, temp: Array, phase: int) -> None:
-        r, rows = self.row, self.rows
-        rows["t"][r] = t_s
-        rows["temp"][r] = temp[1:-1]
-        rows["surface"][r] = temp[[0, -1]]
-        rows["lr"][r] = self.lr
-        rows["phase"][r] = phase
-        rows["mirrored"][r] = self.mirrored
-
-    def run(self, y: Array, phases: list[Phase], counts: list[int]) -> None:
-        """March the unknowns ``y`` = [T_s0, E_cells.., T_s1] through all phases."""
-        t_start = 0.0
-        for i, (phase, m) in enumerate(zip(phases, counts, strict=True)):
-            if phase.flip_before:
-                y = y[::-1].copy()
-                self.lr = self.lr[::-1].copy()
-                self.mirrored = not self.mirrored
-            faces = _fv.Faces.of(phase.face0, phase.face1)
-            fn, y = _fv.rate(
-                self.props, self.mesh, faces.at(t_start), y, self.src(self.mesh.x, t_start)
-            )
-            if i == 0:
-                temp = np.concatenate(([y[0]], self.props.of_e(y[1:-1])[0], [y[-1]]))
-                self._put(0.0, temp, 0)
-            if m:
-                y = self._phase(faces, y, fn, t_start, phase.duration_s, m, i)
-            t_start += phase.duration_s
-
-    def _phase(
-        self,
-        faces: _fv.Faces,
-        y: Array,
-        fn: Array,
-        t_start: float,
-        duration: float,
-        m: int,
-        index: int,
-    ) -> Array:
-        """Advance ``m`` equal TR-BDF2 steps with fixed boundary conditions."""
-        props, mesh = self.props, self.mesh
-        dt = duration / m
-        kill = self.lethality.rate if self.lethality is not None else None
-        r_old = kill(props.of_e(y[1:-1])[0]) if kill is not None else None
-        dy = np.zeros_like(y)
-        for k in range(m):
-            t_new = t_start + duration * (k + 1) / m
-            y_new, fn, temp = _fv.advance(
-                props, mesh, faces, self.src, y, fn, t_start + k * dt, dt, dy
-            )
-            dy = y_new - y
-            y = y_new
-            if kill is not None:
-                r_new = kill(temp[1:-1])
-                self.lr = self.lr + 0.5 * dt * (r_old + r_new)
-                r_old = r_new
-            self.row += 1
-            self._put(t_new, temp, index)
-        return y
+    return ReferenceResult(
+        t_s=out.t_s,
+        temp_c=out.temp_c,
+        log_reduction=out.log_reduction,
+        phase_index=out.phase_index,
+        x_m=(np.arange(n) + 0.5) * (float(thickness_m) / n),
+        surface_c=out.surface_c,
+        mirrored=out.mirrored,
+    )
