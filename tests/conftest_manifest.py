@@ -52,6 +52,9 @@ def _node(i: int, j: int, thickness_m: float, temp_c: float, index: int) -> dict
         "min_log_reduction": 7.0 + 0.125 * index,
         "margin_log": 0.125 * index + 0.0625,
         "extension_s": 0.5 * index,
+        "reference_error_log": 0.01,
+        "reference_error_k": 0.02,
+        "required_margin_log": 0.06,
         "planned_cook_time_s": cook_s - 0.5,
         "peak_surface_c": 150.0 + index,
     }

@@ -74,6 +74,7 @@ def _broken(path: str, value):
         ("nodes.4.min_log_reduction", 6.9, r"nodes\[4\].min_log_reduction = 6.9: not certified"),
         ("nodes.2.margin_log", KeyError, r"nodes\[2\].margin_log = None: missing: every node"),
         ("nodes.2.extension_s", -1.0, r"nodes\[2\].extension_s = -1.0: expected >= 0 s"),
+        ("nodes.0.margin_log", 0.05, r"nodes\[0\].margin_log = 0.05: .* required margin 0.06"),
         ("table.name", "Grill-A", r"table.name = 'Grill-A'"),
         ("spec_hash", "abc", r"spec_hash = 'abc'"),
         ("axes.thickness_m", [0.009, 0.006, 0.012, 0.015], r"axes.thickness_m\[0\] and \[1\]"),

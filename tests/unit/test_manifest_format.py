@@ -27,6 +27,8 @@ def _as_version_1(m: dict) -> dict:
     old["format_version"] = 1
     for node in old["nodes"]:
         node["correction_s"] = node.pop("extension_s")
+        for key in ("reference_error_log", "reference_error_k", "required_margin_log"):
+            del node[key]
         for c in node.get("candidates", []):
             if "calibrated_cook_time_s" in c:
                 c["corrected_cook_time_s"] = c.pop("calibrated_cook_time_s")
@@ -41,13 +43,22 @@ def test_version_1_is_refused_without_the_upgrade_step() -> None:
         emit(_as_version_1(_MOD.synthetic_manifest()), load_target("c99"))
 
 
+def _without_budget(m: dict) -> dict:
+    """The current table as an upgraded format-1 table holds it: no error budget recorded."""
+    out = copy.deepcopy(m)
+    for node in out["nodes"]:
+        for key in ("reference_error_log", "reference_error_k", "required_margin_log"):
+            node[key] = None
+    return out
+
+
 def test_upgrade_restores_the_current_table_exactly() -> None:
     m = _MOD.synthetic_manifest()
     assert FORMAT_VERSION == 2
     up = upgrade_manifest(_as_version_1(m))
-    assert up == m
+    assert up == _without_budget(m)
     check_manifest(up)
-    assert emit(up, load_target("c99")) == emit(m, load_target("c99"))
+    assert emit(up, load_target("json")) == emit(_without_budget(m), load_target("json"))
 
 
 def test_upgrade_keeps_refusing_an_uncertified_table() -> None:
@@ -70,9 +81,24 @@ def test_upgrade_command(tmp_path: Path) -> None:
     old.write_text(json.dumps(_as_version_1(_MOD.synthetic_manifest())), "utf-8")
     res = CliRunner().invoke(main, ["upgrade", str(old), "--out", str(tmp_path / "new.json")])
     assert res.exit_code == 0, res.output
-    assert json.loads((tmp_path / "new.json").read_text("utf-8")) == _MOD.synthetic_manifest()
+    new = json.loads((tmp_path / "new.json").read_text("utf-8"))
+    assert new == _without_budget(_MOD.synthetic_manifest())
     bad = tmp_path / "bad.json"
     bad.write_text("{not json", "utf-8")
     res = CliRunner().invoke(main, ["upgrade", str(bad), "--out", str(tmp_path / "x.json")])
     assert res.exit_code == 2 and "cannot read a JSON table" in res.stderr
     assert not (tmp_path / "x.json").exists()
+
+
+def test_cell_margin_cannot_exceed_its_corner_nodes() -> None:
+    """A cell's margin covers everything its lookup returns, its corner nodes included."""
+    from obvert.certify.cells import cell_dict, corner_cells
+
+    m = _MOD.synthetic_manifest()
+    cells = [cell_dict(c) for c in corner_cells(m)]
+    m["cells"] = {"corner": cells, "bilinear": copy.deepcopy(cells)}
+    check_manifest(m)
+    m["cells"]["bilinear"][2]["rule"] = "bilinear"
+    m["cells"]["bilinear"][2]["min_margin_log"] = 8.5
+    with pytest.raises(ManifestError, match=r"cells.bilinear\[2\].min_margin_log = 8.5: more than"):
+        check_manifest(m)

@@ -16,7 +16,10 @@ A cell is the rectangle between four neighbouring nodes. For each lookup rule:
   done-time pad for the cell (the smallest, in ticks, that makes every sample pass, then
   every sample is simulated again with it). When the pad would make interpolation no
   faster than the corner rule at the cell centre (the pad search stops there), or the
-  corners run different event sequences, the cell falls back to the corner rule.
+  corners run different event sequences, the cell falls back to the corner rule. Every
+  sample must keep the margin the cell's corner nodes were certified with (their reference
+  error plus the spec's minimum), and the cell's recorded margin is the smallest over the
+  samples and the four corner nodes (which the rule returns at the corners).
 """
 
 from __future__ import annotations
@@ -29,7 +32,7 @@ from typing import Any
 import numpy as np
 
 from obvert.certify.batch import judge_many
-from obvert.certify.node import Verdict
+from obvert.certify.node import Verdict, raised
 from obvert.firmware.contract import EVENT_KINDS
 from obvert.firmware.lookup import lookup_f32, lookup_fixed
 from obvert.plan.schedule import Event, Schedule
@@ -185,8 +188,13 @@ def _bilinear_cell(
     x = (float(ax[cell.ci]), float(ax[cell.ci + 1]))
     t = (float(at[cell.cj]), float(at[cell.cj + 1]))
     tick = float(manifest["tick_s"])
+    corners = _corner_nodes(manifest, cell.ci, cell.cj)
+    # every sample must keep the margin its corner nodes were certified with (the reference
+    # error there plus the spec's minimum)
+    need_log = max(float(n.get("required_margin_log") or 0.0) for n in corners)
+    need_k = max(float(n.get("reference_error_k") or 0.0) for n in corners)
     work = [
-        (p, s, c)
+        (p, s, raised(c, need_log, need_k))
         for p in sample_points(x, t, 7919 * cell.ci + cell.cj)
         for s in lookup_schedules(manifest, "bilinear", *p)
         for c in cases_at(*p)
@@ -199,10 +207,21 @@ def _bilinear_cell(
     fallback = replace(fallback, samples=runs)
     if pad is None:
         return fallback
-    target = work[0][2].requirement.log_reduction
+    # the cell's margin covers everything the lookup can return in it: the samples, and
+    # the corner nodes themselves (at a corner the rule returns that node, padded)
+    target = float(manifest["safety"]["target_log_reduction"])
     margins = [v.min_log_reduction - target for v in verdicts]
+    places = [p for p, _, _ in work]
+    for n in corners:
+        margins.append(float(n["margin_log"]))
+        places.append((float(n["thickness_m"]), float(n["start_temp_c"])))
     k = int(np.argmin(margins))
-    return CellResult(cell.ci, cell.cj, "bilinear", pad, margins[k], work[k][0], runs)
+    return CellResult(cell.ci, cell.cj, "bilinear", pad, margins[k], places[k], runs)
+
+
+def _corner_nodes(manifest: Mapping[str, Any], ci: int, cj: int) -> list[Mapping[str, Any]]:
+    n_t = len(manifest["axes"]["start_temp_c"])
+    return [manifest["nodes"][(ci + a) * n_t + cj + b] for a in (0, 1) for b in (0, 1)]
 
 
 def _smallest_pad(

@@ -230,6 +230,16 @@ def _check_certificate(manifest: Mapping[str, Any], node: Any, field: str) -> No
         )
     if float(node["extension_s"]) < 0.0:
         raise _fail(f"{field}.extension_s", node["extension_s"], "expected >= 0 s")
+    required = node.get("required_margin_log")
+    if required is not None:  # None: a format-1 table, certified without an error budget
+        need = _num(node, "required_margin_log", f"{field}.required_margin_log")
+        if margin < need - _ROUNDING_LOG:
+            raise _fail(
+                f"{field}.margin_log",
+                margin,
+                f"not certified: below the required margin {need!r} (reference error "
+                f"{node.get('reference_error_log')!r} log plus the minimum margin)",
+            )
 
 
 def _check_event(manifest: Mapping[str, Any], event: Any, field: str, previous: int) -> int:
@@ -274,9 +284,31 @@ def _check_cells(manifest: Mapping[str, Any]) -> None:
                     margin,
                     "not certified: the cell's smallest margin must be >= 0",
                 )
+            corners = _cell_corner_margins(manifest, k, str(cell.get("rule")))
+            if margin > min(corners) + _ROUNDING_LOG:
+                raise _fail(
+                    f"{field}.min_margin_log",
+                    margin,
+                    f"more than the smallest corner node's margin {min(corners)!r}: a cell's "
+                    "margin covers everything its lookup returns, corners included",
+                )
             at = _get(cell, "at", f"{field}.at")
             _num(at, "thickness_m", f"{field}.at.thickness_m")
             _num(at, "start_temp_c", f"{field}.at.start_temp_c")
+
+
+def _cell_corner_margins(manifest: Mapping[str, Any], k: int, rule: str) -> list[float]:
+    """Margins of the nodes the lookup returns in cell ``k`` (ci-major) or tends to, log10.
+
+    The corner rule returns the thickest, coldest corner alone; interpolation returns each
+    of the four corners' schedules (padded) at or towards that corner.
+    """
+    n_t = len(manifest["axes"]["start_temp_c"])
+    ci, cj = divmod(k, n_t - 1)
+    nodes = manifest["nodes"]
+    if rule == "corner":
+        return [float(nodes[(ci + 1) * n_t + cj]["margin_log"])]
+    return [float(nodes[(ci + a) * n_t + cj + b]["margin_log"]) for a in (0, 1) for b in (0, 1)]
 
 
 def _n_cells(manifest: Mapping[str, Any]) -> int:
@@ -318,6 +350,8 @@ def _upgrade_1(manifest: dict[str, Any]) -> dict[str, Any]:
         n = dict(node)
         if "correction_s" in n:
             n["extension_s"] = n.pop("correction_s")
+        for key in ("reference_error_log", "reference_error_k", "required_margin_log"):
+            n.setdefault(key, None)  # format 1 certified without an error budget
         if "candidates" in n:
             n["candidates"] = [
                 {

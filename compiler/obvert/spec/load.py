@@ -250,6 +250,8 @@ def _planning(sec: Section | None) -> PlanningSpec:
         reference_cells=sec.integer("reference_cells", 40, 2000, 200),
         reference_step_s=sec.bounded("reference_step", "time", 0.005, 1.0, "s", "50 ms"),
         calibration_rounds=sec.integer("calibration_rounds", 0, 8, 3),
+        min_margin_log=sec.number("min_margin", 0.0, 2.0, 0.1),
+        reference_refinement=sec.integer("reference_refinement", 2, 4, 2),
     )
     sec.done()
     return out

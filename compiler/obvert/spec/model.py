@@ -186,6 +186,12 @@ class PlanningSpec:
     calibration_rounds : int
         Largest number of rounds of the reference-calibrated correction of each plan
         (:mod:`obvert.certify.calibrate`), -; 0: plans are the reduced model's alone.
+    min_margin_log : float
+        Margin every certified schedule must keep above the reference model's estimated
+        discretisation error, log10 reductions.
+    reference_refinement : int
+        The error check runs the binding scenario on this many times the cells and this
+        fraction of the time step, -.
     """
 
     flip_cost_s: float
@@ -195,6 +201,8 @@ class PlanningSpec:
     reference_cells: int
     reference_step_s: float
     calibration_rounds: int = 3
+    min_margin_log: float = 0.1
+    reference_refinement: int = 2
 
 
 @dataclass(frozen=True)

@@ -53,6 +53,13 @@ class Node:
         Cook time of the chosen plan before quantisation, s.
     extension_s : float
         Extension of the done time that certification needed, s.
+    reference_error_log : float
+        Estimated discretisation error of the reference's smallest log reduction at the
+        certified schedule (Richardson, binding scenario), log10.
+    reference_error_k : float
+        Same for the coldest temperature at removal, K.
+    required_margin_log : float
+        The margin certification demanded: the error plus the spec's minimum, log10.
     min_log_reduction : float
         Smallest reference-model log reduction over the slab, log10.
     margin_log : float
@@ -82,6 +89,9 @@ class Node:
     schedule: Schedule
     planned_cook_time_s: float
     extension_s: float
+    reference_error_log: float
+    reference_error_k: float
+    required_margin_log: float
     min_log_reduction: float
     margin_log: float
     min_temp_at_removal_c: float

@@ -12,7 +12,7 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from obvert.certify.calibrate import Calibrated, calibrate
-from obvert.certify.node import CertificationError, certify
+from obvert.certify.node import CertificationError, ErrorBudget, certify
 from obvert.firmware.contract import to_ticks
 from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
@@ -192,7 +192,9 @@ def _node(
     a = spec.appliance
     ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
     try:
-        cert = certify(cases, ticked, a.tick_s)
+        p = spec.planning
+        budget = ErrorBudget(p.min_margin_log, p.reference_refinement)
+        cert = certify(cases, ticked, a.tick_s, budget=budget)
     except CertificationError as exc:
         raise BuildError(f"{cell}: {exc}") from None
     for ev in cert.schedule.events:  # every emitted time is a whole tick
@@ -206,6 +208,9 @@ def _node(
         schedule=cert.schedule,
         planned_cook_time_s=plan.done_s,
         extension_s=cert.extension_s,
+        reference_error_log=cert.error.log if cert.error else 0.0,
+        reference_error_k=cert.error.temp_k if cert.error else 0.0,
+        required_margin_log=cert.required_margin_log,
         min_log_reduction=cert.verdict.min_log_reduction,
         margin_log=cert.margin_log,
         min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
