@@ -122,13 +122,14 @@ def test_zero_second_rows_within_a_few_seconds(salmonella, log_red):
 @pytest.mark.parametrize("edition", [2013, 2017])
 def test_food_code_rows_at_5log(salmonella, deg_f, edition):
     """FOOD_CODE comminuted-meat rows reproduced by the Salmonella kinetics with a 5-log
-    target (the basis of the code's comminuted-meat times: from memory). Tolerance per row:
-    half a unit of the printed value plus 15 % (the 2013 -> 2017 change at 155 degF, 13 %,
-    shows the code's own rounding)."""
-    t2013, t2017, half_unit = FOOD_CODE_ROWS[deg_f]
+    target (the basis of the code's comminuted-meat times: from memory). The printed times
+    are the code's requirements, taken as exact; tolerance per row 15 % (the 2013 -> 2017
+    change at 155 degF, 13 %, shows the code's own rounding). Measured: -8 %, -13 %, +11 %
+    (2013) / -2 % (2017) at 145, 150, 155 degF."""
+    t2013, t2017, _half_unit = FOOD_CODE_ROWS[deg_f]
     code = t2013 if edition == 2013 else t2017
     t_hold = quad_hold_time(salmonella, f_to_c(deg_f), 5.0)
-    assert abs(t_hold / code - 1.0) < half_unit / code + 0.15, t_hold
+    assert abs(t_hold / code - 1.0) < 0.15, t_hold
 
 
 @pytest.mark.parametrize("deg_f", sorted(FOOD_CODE_ROWS))

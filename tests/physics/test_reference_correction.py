@@ -86,8 +86,8 @@ def test_corrected_plan_meets_the_cook_time_target(mm: float, t0: float) -> None
 
 
 def test_removal_temperature_rule_is_corrected_too() -> None:
-    """A binding 71 degC removal rule (FDA Food Code 2017, 3-401.11: comminuted meat 155 degF
-    for 17 s, or 158 degF instantaneous, from memory; the demo's rule) with a 1-log target,
+    """A binding 71 degC removal rule (71.1 degC, 160 degF: the USDA FSIS consumer chart for
+    ground meats, not the Food Code, which states hold times; the demo's rule) with a 1-log target,
     so that the temperature rule binds: after the correction the reference's coldest cell at
     removal is at the floor to within 0.05 K (the reduced model's point rule reads it
     differently)."""

@@ -29,9 +29,10 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
+from obvert.food.criteria import hold_margin_s
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
-from obvert.thermal.reference import simulate
+from obvert.thermal.reference import food_frame, simulate
 
 
 class CertificationError(RuntimeError):
@@ -49,12 +50,17 @@ class Verdict:
     min_temp_at_removal_c : float
         Coldest point of the slab at removal, degC.
     passed : bool
-        Both the log-reduction target and the temperature rule (if any) are met.
+        The log-reduction target, the removal-temperature rule and the time-at-temperature
+        rule (each if asked for) are all met.
+    hold_margin_s : float or None
+        Time-at-temperature rule: for its best row, the smallest spare time over every point
+        of the food, s (negative: not met; None: no such rule).
     """
 
     min_log_reduction: float
     min_temp_at_removal_c: float
     passed: bool
+    hold_margin_s: float | None = None
 
 
 @dataclass(frozen=True)
@@ -162,7 +168,13 @@ class Certificate:
 
 
 def judge(case: Case, schedule: Schedule) -> Verdict:
-    """Simulate ``schedule`` on the reference model and check the requirement."""
+    """Simulate ``schedule`` on the reference model and check the requirement.
+
+    The log reduction is the smallest over the cells at the end (after the credited rest);
+    the removal temperature is the coldest cell when the food leaves the plate; the
+    time-at-temperature rule is checked exactly on each cell's own history (every cell of
+    the food, flips followed, the rest included), taken linear between time steps.
+    """
     req = case.requirement
     phases = phases_for(schedule, case.env, rest_s=req.rest_s)
     res = simulate(
@@ -174,17 +186,27 @@ def judge(case: Case, schedule: Schedule) -> Verdict:
     else:
         removal_row = len(res.t_s) - 1
     t_min = float(np.min(res.temp_c[removal_row]))
-    ok = lr >= req.log_reduction and (req.min_temp_c is None or t_min >= req.min_temp_c)
-    return Verdict(lr, t_min, bool(ok))
+    hold: float | None = None
+    if req.holds:
+        temps, _ = food_frame(res)
+        hold = hold_margin_s(res.t_s, temps, req.holds)[0]
+    ok = (
+        lr >= req.log_reduction
+        and (req.min_temp_c is None or t_min >= req.min_temp_c)
+        and (hold is None or hold >= 0.0)
+    )
+    return Verdict(lr, t_min, bool(ok), hold)
 
 
 def judge_all(cases: Sequence[Case], schedule: Schedule) -> Verdict:
     """The worst verdict of ``schedule`` over several scenarios (all must pass)."""
     verdicts = [judge(c, schedule) for c in cases]
+    holds = [v.hold_margin_s for v in verdicts if v.hold_margin_s is not None]
     return Verdict(
         min(v.min_log_reduction for v in verdicts),
         min(v.min_temp_at_removal_c for v in verdicts),
         all(v.passed for v in verdicts),
+        min(holds) if holds else None,
     )
 
 

@@ -230,6 +230,13 @@ def _check_certificate(manifest: Mapping[str, Any], node: Any, field: str) -> No
         )
     if float(node["extension_s"]) < 0.0:
         raise _fail(f"{field}.extension_s", node["extension_s"], "expected >= 0 s")
+    hold = node.get("hold_margin_s")
+    if hold is not None and _num(node, "hold_margin_s", f"{field}.hold_margin_s") < 0.0:
+        raise _fail(
+            f"{field}.hold_margin_s",
+            hold,
+            "not certified: a point of the food misses the time-at-temperature rule",
+        )
     required = node.get("required_margin_log")
     if required is not None:  # None: a format-1 table, certified without an error budget
         need = _num(node, "required_margin_log", f"{field}.required_margin_log")

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
-from obvert.food.criteria import Requirement
+from obvert.food.criteria import HoldRule, Requirement
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import PropertyTable
 from obvert.problem.scenarios import Scenario, nominal, scenarios
@@ -151,7 +151,12 @@ def problem_of(spec: Spec) -> Problem:
         spec=spec,
         env=env,
         lethality=LethalityModel(s.d_ref_s, s.t_ref_c, s.z_k, cap_c=s.lethality_cap_c),
-        requirement=Requirement(s.log_reduction, s.min_temp_c, s.carry_over_s),
+        requirement=Requirement(
+            s.log_reduction,
+            s.min_temp_c,
+            s.carry_over_s,
+            tuple(HoldRule(t, h) for t, h in s.time_at_temperature),
+        ),
         reference=ReferenceSettings(p.reference_cells, p.reference_step_s),
         spectral=SpectralSettings(p.spectral_nodes, lethality_points=p.lethality_points),
         scenarios=scenarios(spec, env),

@@ -13,6 +13,7 @@ from pathlib import Path
 from typing import Any
 
 from obvert.food.choi_okos import CONDUCTIVITY_MODELS, Composition
+from obvert.food.criteria import HOLD_PRESETS
 from obvert.food.presets import PRESETS
 from obvert.spec.errors import SpecError
 from obvert.spec.errors import range_check as _range_check
@@ -174,7 +175,7 @@ def _appliance(sec: Section) -> ApplianceSpec:
         flip_air = sec.bounded("flip_air_time", "time", 0.1, 30.0, "s", "1 s")
         max_flips = sec.integer("max_flips", 0, 0, 0)
     else:
-        flip_air = sec.bounded("flip_air_time", "time", 0.1, 30.0, "s")
+        flip_air = sec.bounded("flip_air_time", "time", 0.0, 30.0, "s")
         max_flips = sec.integer("max_flips", 0, 8)
     platen_t = platen_h = None
     if kind == "flipping_griddle":
@@ -235,8 +236,37 @@ def _safety(sec: Section) -> SafetySpec:
     cap_c = (
         90.0 if cap is None else _range_check(sec._p("lethality_cap"), cap, t_ref, 150.0, "degC")
     )
+    holds = _holds(sec)
     sec.done()
-    return SafetySpec(name, source, lr, float(d_ref), float(t_ref), float(z), min_t, carry, cap_c)
+    return SafetySpec(
+        name, source, lr, float(d_ref), float(t_ref), float(z), min_t, carry, cap_c, holds
+    )
+
+
+def _holds(sec: Section) -> tuple[tuple[float, float], ...]:
+    """``time_at_temperature``: a preset name or a list of ["<temperature>", "<time>"] rows."""
+    raw = sec.raw("time_at_temperature", None)
+    path = sec._p("time_at_temperature")
+    if raw is None:
+        return ()
+    if isinstance(raw, str):
+        if raw not in HOLD_PRESETS:
+            raise SpecError(path, raw, f"a list of rows or one of {sorted(HOLD_PRESETS)}")
+        return tuple((r.temp_c, r.hold_s) for r in HOLD_PRESETS[raw].rows)
+    if not isinstance(raw, list) or not 1 <= len(raw) <= 12:
+        raise SpecError(path, raw, 'a list of 1 to 12 ["<temperature>", "<time>"] rows')
+    rows = []
+    for i, item in enumerate(raw):
+        if not isinstance(item, list) or len(item) != 2:
+            raise SpecError(f"{path}[{i}]", item, 'a row ["<temperature>", "<time>"]')
+        t = quantity(item[0], f"{path}[{i}][0]", "temperature")
+        if not 40.0 <= t <= 100.0:
+            raise SpecError(f"{path}[{i}][0]", item[0], "40 to 100 degC")
+        h = quantity(item[1], f"{path}[{i}][1]", "time")
+        if not 0.0 <= h <= 7200.0:
+            raise SpecError(f"{path}[{i}][1]", item[1], "0 s to 2 h")
+        rows.append((t, h))
+    return tuple(rows)
 
 
 def _planning(sec: Section | None) -> PlanningSpec:

@@ -152,6 +152,9 @@ class SafetySpec:
         Time after removal credited to lethality (food resting in air), s; 0 means none.
     lethality_cap_c : float
         Temperature above which the lethality rate is not increased further, degC.
+    time_at_temperature : tuple of (float, float)
+        Rows (degC, s) of a time-at-temperature rule: every point of the food must spend at
+        least the time at or above the temperature, for one and the same row (empty: none).
     """
 
     organism: str
@@ -163,6 +166,7 @@ class SafetySpec:
     min_temp_c: float | None
     carry_over_s: float
     lethality_cap_c: float
+    time_at_temperature: tuple[tuple[float, float], ...] = ()
 
 
 @dataclass(frozen=True)

@@ -53,6 +53,7 @@ def _node_dict(node: Node, tick_s: float) -> dict[str, Any]:
         "min_log_reduction": _r(node.min_log_reduction),
         "margin_log": _r(node.margin_log),
         "min_temp_at_removal_c": _r(node.min_temp_at_removal_c),
+        "hold_margin_s": _r_opt(node.hold_margin_s),
         "bounds_s": {k: _r_opt(v) for k, v in node.bounds_s},
         "nominal_planned_s": _r_opt(node.nominal_planned_s),
         "price_of_robustness_s": None
@@ -165,6 +166,7 @@ def node_entries(spec: Spec, nodes: tuple[Node, ...]) -> dict[str, Any]:
             "min_temp_c": s.min_temp_c,
             "carry_over_s": s.carry_over_s,
             "lethality_cap_c": s.lethality_cap_c,
+            "time_at_temperature": [{"temp_c": t, "hold_s": h} for t, h in s.time_at_temperature],
         },
         "nodes": rows,
         "summary": {

@@ -66,6 +66,9 @@ class Node:
         ``min_log_reduction`` minus the target, log10 (>= 0).
     min_temp_at_removal_c : float
         Coldest point at removal on the reference model, degC.
+    hold_margin_s : float or None
+        Time-at-temperature rule: the smallest spare time over every point for the best
+        row, s (None: no such rule).
     candidates : tuple of Candidate
         Every flip count tried.
     bounds_s : tuple of (str, float or None)
@@ -95,6 +98,7 @@ class Node:
     min_log_reduction: float
     margin_log: float
     min_temp_at_removal_c: float
+    hold_margin_s: float | None
     candidates: tuple[Candidate, ...]
     bounds_s: tuple[tuple[str, float | None], ...] = ()
     nominal_planned_s: float | None = None

@@ -214,6 +214,7 @@ def _node(
         min_log_reduction=cert.verdict.min_log_reduction,
         margin_log=cert.margin_log,
         min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
+        hold_margin_s=cert.verdict.hold_margin_s,
         candidates=tuple(cands),
         model_planned_s=choice.model_cook_time_s if spec.planning.calibration_rounds else None,
         calibration_note=choice.note,
