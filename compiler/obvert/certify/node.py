@@ -29,7 +29,7 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from obvert.food.criteria import hold_margin_s
+from obvert.food.criteria import HoldRule, hold_margin_s, time_above_by_step
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
 from obvert.thermal.reference import food_frame, simulate
@@ -280,6 +280,82 @@ def _binding_error(cases: Sequence[Case], schedule: Schedule, refinement: int) -
     return ReferenceError(max(e.log for e in errs), max(e.temp_k for e in errs))
 
 
+#: Passing stretches of the history tried before the search falls back to doubling.
+CONFIRM_TRIES = 8
+
+
+def _passing_curve(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
+    """Times and pass/fail of every row of one run of ``long`` (food left on the plate).
+
+    Removing the food at a row's time would give the state of that row: the log reduction
+    and the coldest point are read there, and the time at temperature accumulated so far.
+    """
+    req = case.requirement
+    phases = phases_for(long, case.env)
+    res = simulate(
+        case.table, case.thickness_m, case.start_temp_c, phases, case.lethality, case.settings
+    )
+    ok = res.log_reduction.min(axis=1) >= req.log_reduction
+    if req.min_temp_c is not None:
+        ok &= res.temp_c.min(axis=1) >= req.min_temp_c
+    if req.holds:
+        temps, _ = food_frame(res)
+        ok &= _hold_met_by_row(res.t_s, temps, req.holds)
+    return res.t_s, ok
+
+
+def _hold_met_by_row(t_s: np.ndarray, temps: np.ndarray, holds: tuple[HoldRule, ...]) -> np.ndarray:
+    """Whether the time-at-temperature rule is met if the cook ended at each row."""
+    met = np.zeros(t_s.size, dtype=bool)
+    for rule in holds:
+        steps = time_above_by_step(t_s, temps, rule.temp_c)
+        above = np.vstack([np.zeros((1, temps.shape[1])), np.cumsum(steps, axis=0)])
+        reached = np.maximum.accumulate(temps, axis=0) >= rule.temp_c
+        met |= np.all(reached & (above >= rule.hold_s), axis=1)
+    return met
+
+
+def _read_off_one_run(
+    cases: tuple[Case, ...], schedule: Schedule, tick_s: float, first: int, limit: int
+) -> tuple[Schedule, Verdict] | None:
+    """The earliest done tick in ``[first, limit]`` that passes, read off one long run per case.
+
+    No assumption that the passing done times form one interval (a face cooling in the air
+    after the last flip can make the removal-temperature rule fail again later): the run
+    shows every candidate, and each is confirmed by a run of the exact schedule. None when
+    the history cannot answer (a credited rest after removal) or nothing confirms.
+    """
+    if any(c.requirement.rest_s > 0.0 for c in cases):
+        return None
+    long = schedule.with_done(limit * tick_s)
+    ticks = np.arange(first, limit + 1)
+    ok = np.ones(ticks.size, dtype=bool)
+    for c in cases:
+        t_rows, pass_rows = _passing_curve(c, long)
+        # a tick takes the verdict of the first row at or after it
+        idx = np.clip(np.searchsorted(t_rows, ticks * tick_s - 1e-9), 0, t_rows.size - 1)
+        ok &= pass_rows[idx]
+    cands = ticks[ok]
+    runs = np.split(cands, np.flatnonzero(np.diff(cands) > 1) + 1) if cands.size else []
+    for run in runs[:CONFIRM_TRIES]:
+        # a stretch of done times the history passes: the exact run decides where it starts
+        last = schedule.with_done(int(run[-1]) * tick_s)
+        verdict = judge_all(cases, last)
+        if not verdict.passed:
+            continue
+        lo, hi, best = int(run[0]) - 1, int(run[-1]), (last, verdict)
+        while hi - lo > 1:
+            mid = (lo + hi) // 2
+            trial = schedule.with_done(mid * tick_s)
+            v = judge_all(cases, trial)
+            if v.passed:
+                hi, best = mid, (trial, v)
+            else:
+                lo = mid
+        return best
+    return None
+
+
 def _extend(
     cases: tuple[Case, ...],
     schedule: Schedule,
@@ -299,6 +375,15 @@ def _extend(
             verdict.min_log_reduction - first.requirement.log_reduction,
         )
     limit = done_ticks + max(1, math.ceil(max_extension * done_ticks))
+    found = _read_off_one_run(cases, schedule, tick_s, done_ticks, limit)
+    if found is not None:
+        fixed, verdict = found
+        return Certificate(
+            fixed,
+            verdict,
+            fixed.done_s - planned,
+            verdict.min_log_reduction - first.requirement.log_reduction,
+        )
     lo, step, hi = done_ticks, 1, None
     while hi is None:
         trial = min(done_ticks + step, limit)

@@ -61,8 +61,10 @@ class Requirement:
     holds: tuple[HoldRule, ...] = ()
 
 
-def time_at_or_above(t_s: ArrayLike, temp_c: ArrayLike, threshold_c: float) -> NDArray[np.float64]:
-    """Time each point spends at or above ``threshold_c``, its history taken piecewise linear.
+def time_above_by_step(
+    t_s: ArrayLike, temp_c: ArrayLike, threshold_c: float
+) -> NDArray[np.float64]:
+    """Time each point spends at or above ``threshold_c`` within each step of its history.
 
     Parameters
     ----------
@@ -75,8 +77,9 @@ def time_at_or_above(t_s: ArrayLike, temp_c: ArrayLike, threshold_c: float) -> N
 
     Returns
     -------
-    ndarray, shape (m,)
-        Seconds at or above ``threshold_c``, exact for a history linear between samples.
+    ndarray, shape (n - 1, m)
+        Seconds at or above ``threshold_c`` in each step, exact for a history linear
+        between samples.
     """
     t = np.asarray(t_s, dtype=float)
     y = np.asarray(temp_c, dtype=float) - threshold_c
@@ -87,7 +90,27 @@ def time_at_or_above(t_s: ArrayLike, temp_c: ArrayLike, threshold_c: float) -> N
     with np.errstate(divide="ignore", invalid="ignore"):
         frac_above = np.where(a >= 0.0, a / (a - b), b / (b - a))  # share of the step above
     part = np.where(both, 1.0, np.where(cross, np.nan_to_num(frac_above), 0.0))
-    return np.sum(part * dt, axis=0)
+    return part * dt
+
+
+def time_at_or_above(t_s: ArrayLike, temp_c: ArrayLike, threshold_c: float) -> NDArray[np.float64]:
+    """Time each point spends at or above ``threshold_c`` over its whole history.
+
+    Parameters
+    ----------
+    t_s : array_like, shape (n,)
+        Times, s.
+    temp_c : array_like, shape (n, m)
+        Temperature history of each point, degC.
+    threshold_c : float
+        The temperature, degC.
+
+    Returns
+    -------
+    ndarray, shape (m,)
+        Seconds at or above ``threshold_c`` (:func:`time_above_by_step` summed).
+    """
+    return np.sum(time_above_by_step(t_s, temp_c, threshold_c), axis=0)
 
 
 def hold_margin_s(
