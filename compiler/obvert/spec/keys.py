@@ -703,7 +703,7 @@ PAIR_TEMPERATURE = Key(
 KEYS: Mapping[tuple[str, str], Key] = MappingProxyType({(k.section, k.name): k for k in KEY_LIST})
 
 #: The sections, in the order of the reference ("" is the top level).
-SECTIONS: tuple[str, ...] = ("",) + tuple(k.path for k in KEY_LIST if k.kind == "section")
+SECTIONS: tuple[str, ...] = tuple(dict.fromkeys(k.section for k in KEY_LIST))
 
 
 def keys_of(section: str) -> tuple[Key, ...]:
