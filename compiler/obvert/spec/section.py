@@ -209,8 +209,10 @@ class Section:
         raw = list(raw) if isinstance(raw, tuple) else raw  # a default from the key table
         path = self._p(name)
         lo, hi = key.count or (1, 1)
-        if not isinstance(raw, list) or not lo <= len(raw) <= hi:
+        if not isinstance(raw, list):
             raise SpecError(path, raw, list_text(key))
+        if not lo <= len(raw) <= hi:
+            raise SpecError(path, raw, f"{list_text(key)} ({len(raw)} given)")
         return tuple(check_value(key, v, f"{path}[{i}]") for i, v in enumerate(raw))
 
     def section(self, name: str) -> Section:
