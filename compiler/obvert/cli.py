@@ -68,6 +68,54 @@ def _writable_folder(out_dir: Path) -> str:
     return ""
 
 
+def _profiles(given: tuple[str, ...], spec: Any) -> list[Any]:
+    """The target profiles to build, checked before any work.
+
+    Parameters
+    ----------
+    given : tuple of str
+        The ``--target`` options (empty: the spec's ``outputs.targets``).
+    spec : Spec
+        The loaded spec.
+
+    Returns
+    -------
+    list of TargetProfile
+        One profile per target.
+
+    Raises
+    ------
+    SpecError
+        A target that does not exist or is malformed (naming ``--target`` or
+        ``outputs.targets[i]``), or two targets that write the same file.
+    """
+    from obvert.api import output_names
+    from obvert.emitter import EmitError, ProfileError, load_target
+    from obvert.emitter.profile import builtin_targets
+    from obvert.spec import SpecError
+
+    names = list(given or spec.targets)
+    profiles = []
+    for i, name in enumerate(names):
+        field = "--target" if given else f"outputs.targets[{i}]"
+        try:
+            profiles.append(load_target(name))
+        except ProfileError as exc:
+            if "/" in name or name.endswith(".toml"):  # a file: its own problem, one "allowed"
+                why = str(exc).replace("allowed", "accepted")
+                raise SpecError(field, name, f"a readable, valid target file ({why})") from None
+            builtins = ", ".join(builtin_targets())
+            raise SpecError(
+                field, name, f"a built-in target ({builtins}) or the path of a target .toml file"
+            ) from None
+    try:
+        output_names(spec, profiles)
+    except EmitError as exc:
+        field = "--target" if given else "outputs.targets"
+        raise SpecError(field, names, f"targets that write different files ({exc})") from None
+    return profiles
+
+
 class _ProgressLine:
     """Prints build progress to stderr: done/total, failed solves, time left, what finished."""
 
@@ -175,8 +223,8 @@ def build_cmd(
     quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
-    from obvert.api import compile_table, demo_spec, emit, output_names
-    from obvert.emitter import EmitError, ProfileError, load_target
+    from obvert.api import compile_table, demo_spec, emit
+    from obvert.emitter import EmitError, ProfileError
     from obvert.firmware import ManifestError
     from obvert.problem.model import sequences
     from obvert.review.summary import summary
@@ -185,14 +233,12 @@ def build_cmd(
 
     try:
         spec = load_spec(spec_file) if spec_file is not None else demo_spec(demo)
-        profiles = [load_target(t) for t in (targets or spec.targets)]
-        output_names(spec, profiles)
+        profiles = _profiles(targets, spec)
+        problem = _writable_folder(out_dir)
+        if problem:
+            raise SpecError("--out", str(out_dir), f"a folder that can be written ({problem})")
     except (SpecError, ProfileError, EmitError) as exc:
-        click.echo(f"error: {exc}", err=True)
-        sys.exit(2)
-    problem = _writable_folder(out_dir)
-    if problem:
-        click.echo(f"error: --out {str(out_dir)!r}: {problem}; nothing was built", err=True)
+        click.echo(f"error: {exc}; nothing was built", err=True)
         sys.exit(2)
     if not quiet:
         n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)

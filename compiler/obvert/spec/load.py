@@ -6,17 +6,17 @@ names the field path, the value and what is allowed.
 
 from __future__ import annotations
 
-import math
+import json
 import re
 import sys
 from pathlib import Path
 from typing import Any
 
-from obvert.food.choi_okos import CONDUCTIVITY_MODELS, Composition
+from obvert.food.choi_okos import Composition
 from obvert.food.criteria import HOLD_PRESETS
 from obvert.food.presets import PRESETS
-from obvert.spec.errors import SpecError
-from obvert.spec.errors import range_check as _range_check
+from obvert.spec.errors import MISSING, SpecError, toml_text
+from obvert.spec.keys import PAIR_TEMPERATURE, REQUIRED, keys_of
 from obvert.spec.model import (
     ApplianceSpec,
     FoodSpec,
@@ -27,7 +27,7 @@ from obvert.spec.model import (
     SafetySpec,
     Spec,
 )
-from obvert.spec.section import Section
+from obvert.spec.section import Section, check_value, describe
 from obvert.spec.tolerances import tolerances_section
 from obvert.spec.units import quantity
 
@@ -38,91 +38,91 @@ else:  # pragma: no cover
 
 _NAME = re.compile(r"^[a-z][a-z0-9_]{0,39}$")
 
-
-#: Ranges of measured properties a food can have: (kind, low, high, unit), in SI units.
-#: Conductivity from fat (about 0.2) to ice (2.2 W/(m K)); specific heat from dry solids to
-#: water; density from a foamed product to bone (common practice).
-MEASURED_RANGES = {
-    "conductivity": ("conductivity", 0.05, 3.0, "W/(m*K)"),
-    "density": ("density", 300.0, 2000.0, "kg/m^3"),
-    "specific_heat": ("specific_heat", 500.0, 6000.0, "J/(kg*K)"),
+#: Quantity kind of each measured property.
+_PROPERTY_KINDS = {
+    "conductivity": "conductivity",
+    "density": "density",
+    "specific_heat": "specific_heat",
 }
 
 
-def _property(sec: Section, key: str) -> PropertyValue:
-    kind, lo, hi, unit = MEASURED_RANGES[key]
-    raw = sec.raw(key)
-    path = sec._p(key)
-
-    def value(v: object, where: str) -> float:
-        si = quantity(v, where, kind)
-        if not math.isfinite(si) or not lo <= si <= hi:
-            raise SpecError(where, v, f"{lo:g} to {hi:g} {unit}")
-        return si
-
+def _property(sec: Section, name: str) -> PropertyValue:
+    key = sec.key(name)
+    kind = _PROPERTY_KINDS[name]
+    raw = sec.raw(name)
+    path = sec._p(name)
     if isinstance(raw, str):
-        return value(raw, path)
-    if not isinstance(raw, list) or len(raw) < 2:
-        raise SpecError(path, raw, "a value with a unit, or a list of [temperature, value] pairs")
-    pairs = []
+        return float(check_value(key, raw, path, kind))
+    lo, hi = PAIR_TEMPERATURE.count or (2, 2)
+    if not isinstance(raw, list) or not lo <= len(raw) <= hi:
+        raise SpecError(
+            path,
+            raw,
+            f"{describe(key)}, or a list of {lo} to {hi} [temperature, value] pairs",
+        )
+    pairs: list[tuple[float, float]] = []
     for i, item in enumerate(raw):
+        where = f"{path}[{i}]"
         if not isinstance(item, list) or len(item) != 2:
-            raise SpecError(f"{path}[{i}]", item, "a pair [temperature, value]")
-        t = quantity(item[0], f"{path}[{i}][0]", "temperature")
-        if not -40.0 <= t <= 300.0:
-            raise SpecError(f"{path}[{i}][0]", item[0], "-40 to 300 degC")
+            raise SpecError(
+                where,
+                item,
+                'a pair [temperature, value] such as ["20 degC", ' + (key.example + "]"),
+            )
+        t = float(check_value(PAIR_TEMPERATURE, item[0], f"{where}[0]"))
         if pairs and t <= pairs[-1][0]:
             raise SpecError(
-                f"{path}[{i}][0]", item[0], "a temperature above the previous pair's (ascending)"
+                f"{where}[0]",
+                item[0],
+                f"a temperature above the previous pair's {toml_text(raw[i - 1][0])} "
+                "(strictly ascending)",
             )
-        pairs.append((t, value(item[1], f"{path}[{i}][1]")))
+        pairs.append((t, float(check_value(key, item[1], f"{where}[1]", kind))))
     return tuple(pairs)
 
 
 def _food(sec: Section) -> FoodSpec:
-    name = sec.text("name")
-    comp_sec = sec.section("composition", required=False)
-    meas_sec = sec.section("measured", required=False)
-    if (comp_sec is None) == (meas_sec is None):
+    name = sec.get("name")
+    fp = sec.get("freezing_point")
+    comp_sec = sec.optional_section("composition")
+    meas_sec = sec.optional_section("measured")
+    if comp_sec is None and meas_sec is None:
         raise SpecError(
-            sec.path, sorted(sec.data), "exactly one of [food.composition] or [food.measured]"
+            "food.composition", MISSING, "[food.composition] or [food.measured] (one is required)"
         )
-    fp = sec.bounded("freezing_point", "temperature", -10.0, 0.0, "degC", None)
-    k_model = sec.raw("conductivity_model", "levy_ice")
-    if k_model not in CONDUCTIVITY_MODELS:
-        allowed = f"one of {list(CONDUCTIVITY_MODELS)}"
-        raise SpecError(sec._p("conductivity_model"), k_model, allowed)
-    if meas_sec is not None and "conductivity_model" in sec.data:
+    if comp_sec is not None and meas_sec is not None:
+        raise SpecError(
+            "food.measured", sec.data["measured"], "only without [food.composition] (one of them)"
+        )
+    if meas_sec is not None and sec.has("conductivity_model"):
         raise SpecError(
             sec._p("conductivity_model"),
-            k_model,
+            sec.data["conductivity_model"],
             "only with [food.composition] (measured properties give the conductivity itself)",
         )
+    k_model = sec.get("conductivity_model")
     comp = measured = None
     if comp_sec is not None:
-        fr = {k: comp_sec.number(k, 0.0, 1.0, 0.0) for k in ("carbohydrate", "fibre", "ash")}
-        try:
-            comp = Composition(
-                water=comp_sec.number("water", 0.0, 1.0),
-                protein=comp_sec.number("protein", 0.0, 1.0),
-                fat=comp_sec.number("fat", 0.0, 1.0),
-                **fr,
-            )
-        except ValueError as exc:
-            raise SpecError(comp_sec.path, comp_sec.data, str(exc)) from None
+        fr = {k.name: comp_sec.get(k.name) for k in keys_of("food.composition")}
         comp_sec.done()
-    else:
-        assert meas_sec is not None  # noqa: S101 - narrowed above, not user input
-        mfp = meas_sec.bounded("freezing_point", "temperature", -10.0, 0.0, "degC", None)
+        total = sum(fr.values())
+        if abs(total - 1.0) > 0.01:
+            raise SpecError(
+                comp_sec.path,
+                comp_sec.data,
+                f"mass fractions that sum to 1 within 0.01 (these sum to {total:.4g})",
+            )
+        try:
+            comp = Composition(**fr)
+        except ValueError as exc:  # pragma: no cover - every field is checked above
+            raise SpecError(comp_sec.path, comp_sec.data, f"a composition ({exc})") from None
+    elif meas_sec is not None:
         measured = MeasuredProperties(
             conductivity=_property(meas_sec, "conductivity"),
             density=_property(meas_sec, "density"),
             specific_heat=_property(meas_sec, "specific_heat"),
-            freezing_point_c=mfp,
-            # at most water's latent heat of fusion, 333.6 kJ/kg (a food is partly water)
-            latent_heat_j_per_kg=meas_sec.bounded(
-                "latent_heat", "specific_energy", 0.0, 333.6e3, "J/kg", "0 J/kg"
-            ),
+            freezing_point_c=meas_sec.get("freezing_point"),
+            latent_heat_j_per_kg=meas_sec.get("latent_heat"),
         )
         meas_sec.done()
     sec.done()
@@ -135,68 +135,63 @@ def _food(sec: Section) -> FoodSpec:
     )
 
 
-def _axis(sec: Section, key: str, kind: str, lo: float, hi: float, unit: str) -> tuple[float, ...]:
-    raw = sec.raw(key)
-    path = sec._p(key)
-    if not isinstance(raw, list) or not 1 <= len(raw) <= 64:
-        raise SpecError(path, raw, f"a list of 1 to 64 values with units ({unit})")
-    vals = tuple(
-        _range_check(f"{path}[{i}]", quantity(v, f"{path}[{i}]", kind), lo, hi, unit)
-        for i, v in enumerate(raw)
-    )
-    if any(b <= a for a, b in zip(vals, vals[1:], strict=False)):
-        raise SpecError(path, raw, "strictly ascending values")
-    return vals
+def _axis(sec: Section, name: str) -> tuple[float, ...]:
+    vals = sec.values(name) or ()
+    for i in range(1, len(vals)):
+        if vals[i] <= vals[i - 1]:
+            raw = sec.data[name]
+            raise SpecError(
+                f"{sec._p(name)}[{i}]",
+                raw[i],
+                f"a value above the previous one, {toml_text(raw[i - 1])} (strictly ascending)",
+            )
+    return tuple(float(v) for v in vals)
 
 
 def _grid(sec: Section) -> GridSpec:
-    t = _axis(sec, "thickness", "length", 0.002, 0.05, "m (2 to 50 mm)")
-    s = _axis(sec, "start_temperature", "temperature", -40.0, 30.0, "degC")
+    t = _axis(sec, "thickness")
+    s = _axis(sec, "start_temperature")
     sec.done()
     return GridSpec(thickness_m=t, start_temp_c=s)
 
 
-APPLIANCE_KINDS = ("flipping_griddle", "clamshell", "flip_then_close")
-
-
 def _appliance(sec: Section) -> ApplianceSpec:
-    kind = sec.text("kind", "flipping_griddle")
-    if kind not in APPLIANCE_KINDS:
-        raise SpecError(sec._p("kind"), kind, f"one of {list(APPLIANCE_KINDS)}")
-    p = sec._p
-    htc = "heat_transfer_coefficient"
-    plate = sec.bounded("plate_temperature", "temperature", 60.0, 300.0, "degC")
-    contact = sec.bounded("contact_coefficient", htc, 10.0, 5000.0, "W/(m^2*K)")
-    air_t = sec.bounded("air_temperature", "temperature", -10.0, 200.0, "degC")
-    air_h = sec.bounded("air_coefficient", htc, 0.0, 500.0, "W/(m^2*K)")
-    gap = sec.bounded("min_event_gap", "time", 0.0, 600.0, "s")
-    tick = sec.bounded("tick", "time", 0.001, 1.0, "s")
+    kind = sec.get("kind")
     if kind == "clamshell":
-        flip_air = sec.bounded("flip_air_time", "time", 0.1, 30.0, "s", "1 s")
-        max_flips = sec.integer("max_flips", 0, 0, 0)
+        flip_air = sec.get("flip_air_time", "1 s")
+        max_flips = sec.get("max_flips", 0)
+        if max_flips != 0:
+            raise SpecError(
+                sec._p("max_flips"), sec.data["max_flips"], "0 on a clamshell (it does not flip)"
+            )
     else:
-        flip_air = sec.bounded("flip_air_time", "time", 0.0, 30.0, "s")
-        max_flips = sec.integer("max_flips", 0, 8)
+        flip_air = sec.get("flip_air_time")
+        max_flips = sec.get("max_flips")
     platen_t = platen_h = None
     if kind == "flipping_griddle":
         for key in ("platen_temperature", "platen_contact_coefficient"):
             if sec.has(key):
-                raise SpecError(p(key), sec.data[key], "nothing: a flipping griddle has no platen")
+                raise SpecError(
+                    sec._p(key),
+                    sec.data[key],
+                    'only on kind = "clamshell" or "flip_then_close" (a flipping griddle '
+                    "has no platen)",
+                )
     else:
-        platen_t = sec.bounded("platen_temperature", "temperature", 60.0, 300.0, "degC")
-        platen_h = sec.bounded("platen_contact_coefficient", htc, 10.0, 5000.0, "W/(m^2*K)")
+        platen_t = sec.get("platen_temperature")
+        platen_h = sec.get("platen_contact_coefficient")
     out = ApplianceSpec(
-        name=sec.text("name"),
+        name=sec.get("name"),
         kind=kind,
-        plate_temp_c=plate,
-        contact_coefficient=contact,
-        air_temp_c=air_t,
-        air_coefficient=air_h,
-        emissivity=sec.number("emissivity", 0.0, 1.0),
+        plate_temp_c=sec.get("plate_temperature"),
+        contact_coefficient=sec.get("contact_coefficient"),
+        air_temp_c=sec.get("air_temperature"),
+        air_coefficient=sec.get("air_coefficient"),
+        emissivity=sec.get("emissivity"),
         flip_air_s=flip_air,
-        min_event_gap_s=gap,
+        min_event_gap_s=sec.get("min_event_gap"),
         max_flips=max_flips,
-        tick_s=tick,
+        tick_s=sec.get("tick"),
         platen_temp_c=platen_t,
         platen_coefficient=platen_h,
     )
@@ -204,38 +199,40 @@ def _appliance(sec: Section) -> ApplianceSpec:
     return out
 
 
+_CUSTOM_KINETICS = ("d_ref", "t_ref", "z", "source", "organism_name")
+
+
 def _safety(sec: Section) -> SafetySpec:
-    organism = sec.raw("organism", None)
-    cap = sec.qty("lethality_cap", "temperature", None)
+    organism = sec.get("organism")
     if organism is not None:
-        if organism not in PRESETS:
-            raise SpecError(sec._p("organism"), organism, f"one of the presets {sorted(PRESETS)}")
-        for key in ("d_ref", "t_ref", "z", "source"):
+        for key in _CUSTOM_KINETICS:
             if sec.has(key):
                 raise SpecError(
-                    sec._p(key), sec.data[key], "nothing when an organism preset is named"
+                    sec._p(key),
+                    sec.data[key],
+                    f"only without an organism preset (organism = {json.dumps(organism)} "
+                    "sets the kinetics)",
                 )
         p = PRESETS[organism]
         d_ref, t_ref, z, source = p.d_ref_s, p.t_ref_c, p.z_k, p.source
-        default_lr: object = p.target_log_reduction
+        lr = sec.get("log_reduction", p.target_log_reduction)
         name = f"{organism}: {p.organism} in {p.matrix}"
     else:
-        d_ref = sec.qty("d_ref", "time")
-        t_ref = sec.qty("t_ref", "temperature")
-        z = sec.qty("z", "temperature_difference")
-        source = sec.text("source")
-        name = sec.text("organism_name")
-        default_lr = ...
-        if not (d_ref > 0 and z > 0):
-            raise SpecError(sec.path, {"d_ref": d_ref, "z": z}, "positive D and z values")
-    lr = sec.number("log_reduction", 0.0, 15.0, default_lr)
-    if lr <= 0.0:
-        raise SpecError(sec._p("log_reduction"), sec.raw("log_reduction"), "a number > 0 and <= 15")
-    min_t = sec.bounded("min_temperature", "temperature", 40.0, 100.0, "degC", None)
-    carry = sec.bounded("carry_over", "time", 0.0, 600.0, "s", "0 s")
-    cap_c = (
-        90.0 if cap is None else _range_check(sec._p("lethality_cap"), cap, t_ref, 150.0, "degC")
-    )
+        d_ref = sec.get("d_ref")
+        t_ref = sec.get("t_ref")
+        z = sec.get("z")
+        source = sec.get("source")
+        name = sec.get("organism_name")
+        lr = sec.get("log_reduction")
+    min_t = sec.get("min_temperature")
+    carry = sec.get("carry_over")
+    cap_c = sec.get("lethality_cap")
+    if cap_c < t_ref:
+        raise SpecError(
+            sec._p("lethality_cap"),
+            sec.raw("lethality_cap"),
+            f"a temperature at least the reference temperature t_ref, {t_ref:g} degC",
+        )
     holds = _holds(sec)
     sec.done()
     return SafetySpec(
@@ -245,7 +242,7 @@ def _safety(sec: Section) -> SafetySpec:
 
 def _holds(sec: Section) -> tuple[tuple[float, float], ...]:
     """``time_at_temperature``: a preset name or a list of ["<temperature>", "<time>"] rows."""
-    raw = sec.raw("time_at_temperature", None)
+    raw = sec.raw("time_at_temperature")
     path = sec._p("time_at_temperature")
     if raw is None:
         return ()
@@ -272,26 +269,23 @@ def _holds(sec: Section) -> tuple[tuple[float, float], ...]:
 def _planning(sec: Section | None) -> PlanningSpec:
     if sec is None:
         sec = Section({}, "planning")
+    n = sec.get("lethality_points")
+    if 0 < n < 3:
+        key = sec.key("lethality_points")
+        raise SpecError(sec._p("lethality_points"), n, f"0 (at the nodes) or 3 to {key.hi:g}")
     out = PlanningSpec(
-        flip_cost_s=sec.bounded("flip_cost", "time", 0.0, 600.0, "s", "0 s"),
-        spectral_nodes=sec.integer("spectral_nodes", 6, 32, 16),
-        lethality_points=_lethality_points(sec),
-        elements_per_phase=sec.integer("elements_per_phase", 4, 40, 8),
-        reference_cells=sec.integer("reference_cells", 40, 2000, 200),
-        reference_step_s=sec.bounded("reference_step", "time", 0.005, 1.0, "s", "50 ms"),
-        calibration_rounds=sec.integer("calibration_rounds", 0, 8, 3),
-        min_margin_log=sec.number("min_margin", 0.0, 2.0, 0.1),
-        reference_refinement=sec.integer("reference_refinement", 2, 4, 2),
+        flip_cost_s=sec.get("flip_cost"),
+        spectral_nodes=sec.get("spectral_nodes"),
+        lethality_points=n,
+        elements_per_phase=sec.get("elements_per_phase"),
+        reference_cells=sec.get("reference_cells"),
+        reference_step_s=sec.get("reference_step"),
+        calibration_rounds=sec.get("calibration_rounds"),
+        min_margin_log=sec.get("min_margin"),
+        reference_refinement=sec.get("reference_refinement"),
     )
     sec.done()
     return out
-
-
-def _lethality_points(sec: Section) -> int:
-    n = sec.integer("lethality_points", 0, 401, 21)
-    if 0 < n < 3:
-        raise SpecError(sec._p("lethality_points"), n, "0 (at the nodes) or 3 to 401")
-    return n
 
 
 def spec_from_dict(data: dict[str, Any]) -> Spec:
@@ -303,31 +297,37 @@ def spec_from_dict(data: dict[str, Any]) -> Spec:
         A field is missing, unknown or holds a value that is not allowed.
     """
     top = Section(data, "")
+    for sec_key in keys_of(""):  # every required section, before any of their keys
+        if sec_key.default is REQUIRED and sec_key.name not in data:
+            raise SpecError(
+                sec_key.name, MISSING, f"a section [{sec_key.name}] (the section is required)"
+            )
     table = top.section("table")
-    name = table.text("name")
+    name = table.get("name")
     if not _NAME.match(name):
-        raise SpecError(
-            "table.name",
-            name,
-            "lower-case letters, digits and '_', starting with a letter, at most 40",
-        )
-    title = table.text("title", name)
+        raise SpecError("table.name", name, describe(table.key("name")))
+    title = table.get("title") or name
     table.done()
     food = _food(top.section("food"))
     grid = _grid(top.section("grid"))
     appliance = _appliance(top.section("appliance"))
     safety = _safety(top.section("safety"))
-    planning = _planning(top.section("planning", required=False))
-    tolerances = tolerances_section(top.section("tolerances", required=False), food)
-    out_sec = top.section("outputs", required=False) or Section({}, "outputs")
-    targets = out_sec.raw("targets", ["c99", "json"])
-    if not isinstance(targets, list) or not targets or not all(isinstance(t, str) for t in targets):
-        raise SpecError("outputs.targets", targets, "a non-empty list of target names")
+    planning = _planning(top.optional_section("planning"))
+    tolerances = tolerances_section(top.optional_section("tolerances"), food)
+    out_sec = top.optional_section("outputs") or Section({}, "outputs")
+    targets = out_sec.values("targets")
     out_sec.done()
     top.done()
     if safety.min_temp_c is not None and safety.min_temp_c >= appliance.plate_temp_c:
-        raise SpecError("safety.min_temperature", safety.min_temp_c, "below the plate temperature")
-    return Spec(name, title, food, grid, appliance, safety, planning, tuple(targets), tolerances)
+        raise SpecError(
+            "safety.min_temperature",
+            data["safety"]["min_temperature"],
+            "a temperature below appliance.plate_temperature, "
+            + toml_text(data["appliance"]["plate_temperature"]),
+        )
+    return Spec(
+        name, title, food, grid, appliance, safety, planning, tuple(targets or ()), tolerances
+    )
 
 
 def load_spec(path: str | Path) -> Spec:
@@ -358,7 +358,9 @@ def loads_spec(text: str, source: str = "<spec>") -> Spec:
     try:
         data = tomllib.loads(text)
     except tomllib.TOMLDecodeError as exc:
-        raise SpecError("file", source, f"valid TOML ({exc})") from None
+        raise SpecError("file", source, f"valid TOML ({_toml_problem(exc, text)})") from None
+    except RecursionError:
+        raise SpecError("file", source, "valid TOML (arrays or tables nested too deep)") from None
     if not data:
         raise SpecError(
             "file",
@@ -367,3 +369,18 @@ def loads_spec(text: str, source: str = "<spec>") -> Spec:
             "[appliance] and [safety] are required)",
         )
     return spec_from_dict(data)
+
+
+def _toml_problem(exc: Exception, text: str) -> str:
+    """The TOML parser's message, with the offending line quoted when it names one."""
+    msg = str(exc)
+    m = re.search(r"at line (\d+)", msg)
+    if m is None:
+        return msg
+    lines = text.splitlines()
+    n = int(m.group(1))
+    if not 1 <= n <= len(lines):
+        return msg
+    line = lines[n - 1].strip()
+    line = line if len(line) <= 80 else line[:77] + "..."
+    return f"{msg}: {line}" + (" (a key given twice?)" if "overwrite" in msg else "")
