@@ -1,0 +1,153 @@
+"""Benchmark: a whole build's speed, and the plans against the brute-force optimum.
+
+Usage: ``python tests/bench/build_speed.py [--quick] [--jobs N] [--skip-brute-force]``
+
+Printed, all in one run (figures are ratios against baselines measured in the same run):
+
+* the demo build (the built-in griddle demo, or a 2 x 2 corner of it with ``--quick``):
+  wall time, nodes, and per thickness row the cost of a node in units of one reference run
+  of that node's certified schedule (the row's wall time over its nodes, divided by the
+  time of one reference run of the schedule at the spec's reference settings);
+* for two nodes of the demo (10 mm from 4 degC with one flip, and with two flips), the
+  brute-force optimum on the reference model: every flip time on a grid (2 s, then 0.1 s
+  around the best; for two flips a 4 s grid, then coordinate refinement), the earliest
+  passing done of each found by certification (one long reference run read off, confirmed
+  by exact runs), against the cook time of the table's plan for the same flip count
+  (planned, calibrated and certified at the same single scenario), the relative gap and
+  the ratio of the brute force's time to the plan's.
+
+Figures of a run are recorded in docs/speed.md.
+"""
+
+from __future__ import annotations
+
+import argparse
+import time
+from dataclasses import replace
+
+import obvert
+from obvert.certify.node import CertificationError, certify, judge
+from obvert.plan.schedule import Event, Schedule
+from obvert.problem import problem_of
+from obvert.table import ProgressEvent
+
+
+def _spec(quick: bool) -> obvert.Spec:
+    if quick:
+        return obvert.demo_spec(
+            "griddle", thickness=["6 mm", "12 mm"], start_temperature=["-18 degC", "4 degC"]
+        )
+    return obvert.demo_spec("griddle")
+
+
+def build_figures(spec: obvert.Spec, jobs: int) -> None:
+    rows: list[tuple[float, int, float]] = []
+    last = [time.perf_counter()]
+
+    def on_progress(event: ProgressEvent) -> None:
+        now = time.perf_counter()
+        rows.append((now - last[0], event.done, event.total))
+        last[0] = now
+
+    t0 = time.perf_counter()
+    table = obvert.compile_table(spec, ["json"], progress=on_progress, jobs=jobs)
+    wall = time.perf_counter() - t0
+    n = len(table.nodes)
+    print(f"demo build: {n} nodes, {wall:.1f} s wall on {jobs} job(s), {wall / n:.2f} s per node")
+    problem = problem_of(spec)
+    n_t = len(spec.grid.start_temp_c)
+    for i, thick in enumerate(spec.grid.thickness_m):
+        for j in range(n_t):
+            node = table.nodes[i * n_t + j]
+            case = problem.cases_at(node.thickness_m, node.start_temp_c)[0]
+            t1 = time.perf_counter()
+            judge(case, node.schedule)
+            one = time.perf_counter() - t1
+            share = wall / n * jobs  # CPU share of a node (rows run in parallel)
+            print(
+                f"  {thick * 1e3:5.1f} mm {node.start_temp_c:6.1f} degC: {node.schedule.flips} "
+                f"flip(s), cook {node.schedule.done_s:7.1f} s, one reference run {one:.3f} s, "
+                f"node cost about {share / one:6.1f} reference runs"
+            )
+
+
+def _earliest_done(cases, flips: tuple[float, ...], tick: float, done_guess: float) -> float | None:
+    events = tuple(Event("flip", f) for f in flips)
+    start = max(done_guess, (flips[-1] if flips else 0.0) + 12.0)
+    sched = Schedule((*events, Event("done", round(start / tick) * tick)))
+    try:
+        return certify(cases, sched, tick, max_extension=3.0).schedule.done_s
+    except (CertificationError, ValueError):
+        return None
+
+
+def brute_force(
+    cases, n_flips: int, tick: float, horizon: float
+) -> tuple[float, tuple[float, ...], float]:
+    """The shortest certified cook over flip times on a grid, refined; (done, flips, seconds)."""
+    t0 = time.perf_counter()
+    best: tuple[float, tuple[float, ...]] = (float("inf"), ())
+
+    def consider(flips: tuple[float, ...]) -> None:
+        nonlocal best
+        d = _earliest_done(cases, flips, tick, 0.5 * horizon)
+        if d is not None and d < best[0]:
+            best = (d, flips)
+
+    if n_flips == 1:
+        for f in range(10, int(horizon), 2):
+            consider((float(f),))
+        f0 = best[1][0]
+        for k in range(-20, 21):
+            consider((round(f0 + 0.1 * k, 1),))
+    else:
+        for f1 in range(10, int(horizon), 4):
+            for f2 in range(f1 + 12, int(horizon), 4):
+                consider((float(f1), float(f2)))
+        for step in (1.0, 0.2, 0.1):
+            for _ in range(3):
+                f1, f2 = best[1]
+                for d1 in (-2, -1, 1, 2):
+                    consider((round(f1 + d1 * step, 1), f2))
+                f1, f2 = best[1]
+                for d2 in (-2, -1, 1, 2):
+                    consider((f1, round(f2 + d2 * step, 1)))
+    return best[0], best[1], time.perf_counter() - t0
+
+
+def optimum_figures(spec: obvert.Spec) -> None:
+    spec1 = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
+    spec1 = replace(spec1, tolerances=type(spec1.tolerances)())  # one scenario: nominal
+    tick = spec1.appliance.tick_s
+    cases = list(problem_of(spec1).cases_at(0.010, 4.0))
+    for flips in (1, 2):
+        s = replace(spec1, appliance=replace(spec1.appliance, max_flips=flips))
+        s = replace(s, planning=replace(s.planning, flip_cost_s=0.0))
+        t0 = time.perf_counter()
+        table = obvert.compile_table(s, ["json"])
+        plan_s = time.perf_counter() - t0
+        node = table.nodes[0]
+        done, at, brute_s = brute_force(cases, flips, tick, 1.2 * node.schedule.done_s)
+        gap = node.schedule.done_s / done - 1.0
+        print(
+            f"10 mm from 4 degC, up to {flips} flip(s): plan {node.schedule.done_s:.1f} s "
+            f"({node.schedule.flips} flips, {plan_s:.1f} s to build); brute force {done:.1f} s "
+            f"(flips at {at}, {brute_s:.0f} s); gap {100 * gap:+.3f} %; brute force / plan time "
+            f"{brute_s / plan_s:.0f}x"
+        )
+
+
+def main() -> None:
+    ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
+    ap.add_argument("--quick", action="store_true", help="a 2 x 2 corner of the demo")
+    ap.add_argument("--jobs", type=int, default=2)
+    ap.add_argument("--skip-brute-force", action="store_true")
+    args = ap.parse_args()
+    spec = _spec(args.quick)
+    build_figures(spec, args.jobs)
+    if not args.skip_brute_force:
+        optimum_figures(spec)
+
+
+if __name__ == "__main__":
+    main()
