@@ -9,6 +9,11 @@ def _opt(v: float | None) -> str:
     return f"{'-':>8}" if v is None else f"{v:8.1f}"
 
 
+def _need(n: dict[str, Any]) -> str:
+    v = n.get("required_margin_log")
+    return f"{'-':>8}" if v is None else f"{v:8.3f}"
+
+
 def summary(m: dict[str, Any]) -> str:
     """Plain-text build summary of a manifest: nodes, robustness price, cells."""
     cols = (
@@ -19,10 +24,11 @@ def summary(m: dict[str, Any]) -> str:
         "plan s",
         "fix s",
         "margin log",
+        "need log",
         "ff lim s",
         "2side s",
     )
-    widths = (8, 8, 5, 8, 8, 6, 10, 8, 8)
+    widths = (8, 8, 5, 8, 8, 6, 10, 8, 8, 8)
     head = " ".join(f"{c:>{w}}" for c, w in zip(cols, widths, strict=True)) + "  events"
     lines = [head, "-" * len(head)]
     for n in m["nodes"]:
@@ -30,7 +36,7 @@ def summary(m: dict[str, Any]) -> str:
         lines.append(
             f"{n['thickness_m'] * 1e3:8.2f} {n['start_temp_c']:8.1f} {n['flips']:5d} "
             f"{n['cook_time_s']:8.1f} {n['planned_cook_time_s']:8.1f} {n['extension_s']:6.1f} "
-            f"{n['margin_log']:10.3f} {_opt(n['bounds_s'].get('fast_flip_limit'))} "
+            f"{n['margin_log']:10.3f} {_need(n)} {_opt(n['bounds_s'].get('fast_flip_limit'))} "
             f"{_opt(n['bounds_s'].get('two_sided_contact'))}  {ev}"
         )
     s = m["summary"]
@@ -72,7 +78,9 @@ def summary(m: dict[str, Any]) -> str:
     lines.append(
         "plan s: optimum before ticks (reduced model, corrected against the reference unless "
         "calibration_rounds = 0); fix s: extension needed on the reference "
-        "model; ff lim s / 2side s: fast-flip and two-sided-contact limits (reduced model)"
+        "model; need log: margin required (the reference's estimated error, measured on a finer "
+        "reference, plus [planning] min_margin); ff lim s / 2side s: fast-flip and "
+        "two-sided-contact limits (reduced model)"
     )
     lines.append(
         f"smallest margin {s['smallest_margin_log']:.3f} log; "
