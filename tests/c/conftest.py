@@ -123,7 +123,7 @@ def _cell_list(m: dict, rule: str, pads, corner_cells=()) -> list[dict]:
                 "cj": cj,
                 "rule": "corner" if rule == "corner" or k in corner_cells else "bilinear",
                 "done_pad_ticks": pads(k),
-                "min_margin_log": 0.5 + 0.0371 * k - (0.9 if k == 3 else 0.0),
+                "min_margin_log": 0.5 + 0.0371 * k - (0.6 if k == 3 else 0.0),
                 "at": {"thickness_m": (ax[ci] + ax[ci + 1]) / 2,
                        "start_temp_c": (at[cj] + at[cj + 1]) / 2},
             })  # fmt: skip

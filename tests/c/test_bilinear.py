@@ -20,6 +20,7 @@ import numpy as np
 import pytest
 
 from obvert.emitter import EmitError, ProfileError, emit, load_target, loads_target
+from obvert.firmware import FORMAT_VERSION, ManifestError
 from obvert.firmware.lookup import (
     lookup_f32,
     lookup_fixed,
@@ -204,7 +205,7 @@ def test_bilinear_table_data(host_cc, tmp_path, harness, make_cells_manifest, ta
                    "fixed" in target, harness)  # fmt: skip
     lines = host_cc.run(exe, ["dump"]).splitlines()
     # bytes: 4 * 7 axes + 12 * (1 + 4 * 5 + 4) nodes + 6 * (1 + 4 + 4) cells = 382
-    assert lines[0] == "version 1 nodes 4 3 12 events 4 tick_us 100000 bytes 382"
+    assert lines[0] == f"version {FORMAT_VERSION} nodes 4 3 12 events 4 tick_us 100000 bytes 382"
     nodes = [line for line in lines if line.startswith("node ")]
     for k, (row, node) in enumerate(zip(nodes, m["nodes"], strict=True)):
         events = [f"{m['event_kinds'][e['kind']]}:{e['at_ticks']}" for e in node["events"]]
@@ -279,7 +280,7 @@ def test_bad_cells_are_named(path, value, pattern):
     m = cells_manifest()
     rule, k, key = path
     m["cells"][rule][k][key] = value
-    with pytest.raises(EmitError, match=pattern):
+    with pytest.raises(ManifestError, match=pattern):
         emit(m, load_target("json"))
 
 

@@ -19,6 +19,7 @@ import numpy as np
 import pytest
 
 from obvert.emitter import emit, load_target
+from obvert.firmware import FORMAT_VERSION
 from obvert.firmware.lookup import (
     LookupResult,
     lookup,
@@ -166,7 +167,10 @@ def test_table_data_matches_manifest(toolchain, tmp_path, make_manifest, harness
     lines = toolchain.run(exe, ["dump"]).splitlines()
     n_x, n_t, n = 4, 3, 12
     # bytes: 4 * (4 + 3) axes + 12 * (1 count + 4 kinds + 4 * 4 ticks + 4 margin) = 328
-    assert lines[0] == f"version 1 nodes {n_x} {n_t} {n} events 4 tick_us 100000 bytes 328"
+    assert (
+        lines[0]
+        == f"version {FORMAT_VERSION} nodes {n_x} {n_t} {n} events 4 tick_us 100000 bytes 328"
+    )
     assert lines[1] == "null -1"
     if fixed:
         axes = [f"x {v}" for v in (6000, 9000, 12500, 15000)]
@@ -192,7 +196,9 @@ def test_format_version_mismatch_is_a_compile_error(host_cc, tmp_path, make_mani
     bad = host_cc.compile([tmp_path / "h.c"], exe, ("-DSYNTHETIC_GRILL_EXPECT_FORMAT_VERSION=999",))
     assert bad.returncode != 0
     assert "table format version differs" in bad.stderr
-    good = host_cc.compile([tmp_path / "h.c"], exe, ("-DSYNTHETIC_GRILL_EXPECT_FORMAT_VERSION=1",))
+    good = host_cc.compile(
+        [tmp_path / "h.c"], exe, (f"-DSYNTHETIC_GRILL_EXPECT_FORMAT_VERSION={FORMAT_VERSION}",)
+    )
     assert good.returncode == 0, good.stderr
 
 
