@@ -30,7 +30,7 @@ from obvert.firmware.lookup import (
     thickness_axis_um,
 )
 
-from .conftest import ODD_NODE, cells_manifest
+from .manifests import ODD_NODE, cells_manifest
 from .test_c_header import FIRMWARE_WARNINGS, USER_UNIT, _hex32, float_queries
 
 NODE_NONE = 65535
