@@ -9,11 +9,15 @@ from __future__ import annotations
 
 import shutil
 import subprocess
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 from pathlib import Path
 from string import Template
 
 import pytest
+
+from obvert.emitter import TargetProfile, load_target
+from obvert.emitter.profile import C_SOURCE_TEMPLATE
+from obvert.firmware import FORMAT_VERSION
 
 from .manifests import cells_manifest, manifest_module
 
@@ -57,6 +61,56 @@ def _toolchain(name: str) -> Toolchain:
     return Toolchain(name, name, ())
 
 
+def header_only(target: TargetProfile | str) -> TargetProfile:
+    """``target`` with layout ``header_only``: its ``.c`` output dropped."""
+    profile = load_target(target) if isinstance(target, str) else target
+    outputs = tuple(o for o in profile.outputs if o.template != C_SOURCE_TEMPLATE)
+    return replace(profile, layout="header_only", outputs=outputs)
+
+
+def build_program(
+    toolchain: Toolchain,
+    folder: Path,
+    files: dict[str, bytes],
+    main_source: str,
+    extra: tuple[str, ...] = (),
+):
+    """Write the emitted ``files`` and ``main.c`` to ``folder`` and build them into one program.
+
+    Every emitted ``.c`` file is compiled and linked with ``main.c`` (layout ``split``); a
+    header-only table has none. Returns ``(CompletedProcess, executable path)``.
+    """
+    for name, data in files.items():
+        (folder / name).write_bytes(data)
+    (folder / "main.c").write_text(main_source)
+    sources = [folder / "main.c"] + [folder / n for n in sorted(files) if n.endswith(".c")]
+    exe = folder / "program"
+    return toolchain.compile(sources, exe, extra), exe
+
+
+def compile_units(
+    toolchain: Toolchain,
+    folder: Path,
+    files: dict[str, bytes],
+    user_source: str,
+    extra: tuple[str, ...] = (),
+) -> list[tuple[str, str]]:
+    """Compile ``user.c`` and every emitted ``.c`` file on its own (``-c``).
+
+    Returns ``(file name, compiler messages)`` of every unit that failed or printed anything.
+    """
+    for name, data in files.items():
+        (folder / name).write_bytes(data)
+    (folder / "user.c").write_text(user_source)
+    units = ["user.c"] + sorted(n for n in files if n.endswith(".c"))
+    problems = []
+    for unit in units:
+        proc = toolchain.compile([folder / unit], folder / f"{unit}.o", ("-c", *extra))
+        if proc.returncode != 0 or proc.stderr.strip():
+            problems.append((unit, proc.stderr))
+    return problems
+
+
 @pytest.fixture(params=["gcc", "clang", "arm-qemu"])
 def toolchain(request) -> Toolchain:
     """Every available tool chain: host gcc, host clang, 32-bit ARM under qemu."""
@@ -91,6 +145,9 @@ HARNESS = Template(r"""
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#ifndef ${P}_EXPECT_FORMAT_VERSION
+#define ${P}_EXPECT_FORMAT_VERSION $version
+#endif
 #include "$header"
 
 static void answer(int status, const ${p}_schedule_t *out, const ${p}_schedule_t *sentinel)
@@ -227,7 +284,7 @@ def harness_source(header: str, prefix: str, fixed: bool, bilinear: bool = False
     parts.update(_BILINEAR_PARTS if bilinear else {"answer_cell": "", "dump_cells": ""})
     names = {"p": prefix, "P": prefix.upper()}
     filled = {k: Template(v).substitute(names) for k, v in parts.items()}
-    return HARNESS.substitute(header=header, **names, **filled)
+    return HARNESS.substitute(header=header, version=FORMAT_VERSION, **names, **filled)
 
 
 @pytest.fixture
