@@ -296,13 +296,21 @@ int firmware_step(@arg@ x, @arg@ t)
 {
     synthetic_grill_schedule_t s;
     int status = synthetic_grill_lookup(x, t, &s);
-    return status == SYNTHETIC_GRILL_OK ? (int)s.n_events : status;
+    if (status != SYNTHETIC_GRILL_OK) {
+        return status;
+    }
+    return (int)s.cook_ticks + (int)s.kinds[0] + (int)s.n_events;
 }
 """
 
 
 def user_unit(fixed: bool) -> str:
-    """A firmware unit calling the lookup (schedule on the stack), for compile-only tests."""
+    """A firmware unit calling the lookup, for compile-only tests.
+
+    The schedule lives on the caller's stack and the caller reads ``cook_ticks`` and
+    ``kinds[0]``: with the lookup inlined (header-only) this is where gcc -O2/-O3 once saw a
+    read of an unset entry in the bilinear lookup (-Wmaybe-uninitialized).
+    """
     arg = "int32_t" if fixed else "float"
     return _versioned(USER_UNIT).replace("@arg@", arg)
 
