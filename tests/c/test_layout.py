@@ -253,6 +253,8 @@ def undefined_names(files: dict[str, bytes], allowed: tuple[str, ...] = ()) -> l
 def test_symbols_named_in_comments_are_defined(target, layout):
     files = _files(target, layout)
     text = "\n".join(v.decode() for v in files.values())
+    for name, data in files.items():  # every emitted file carries the caution and the hash
+        assert b" * FOOD-SAFETY CAUTION:\n" in data and b" * Manifest sha256: " in data, name
     named = named_in_comments(text)
     assert {"synthetic_grill_lookup", "SYNTHETIC_GRILL_EVENT_*", "SYNTHETIC_GRILL_ERR_*"} <= named
     assert undefined_names(files, FIRMWARE_DEFINES) == []
