@@ -20,6 +20,7 @@ import numpy as np
 import pytest
 
 from obvert.emitter import EmitError, ProfileError, emit, load_target, loads_target
+from obvert.firmware import FORMAT_VERSION, ManifestError
 from obvert.firmware.lookup import (
     lookup_f32,
     lookup_fixed,
@@ -29,8 +30,9 @@ from obvert.firmware.lookup import (
     thickness_axis_um,
 )
 
-from .conftest import ODD_NODE, cells_manifest
-from .test_c_header import FIRMWARE_WARNINGS, USER_UNIT, _hex32, float_queries
+from .conftest import build_program, compile_units, header_only
+from .manifests import ODD_NODE, cells_manifest
+from .test_c_header import FIRMWARE_WARNINGS, _hex32, float_queries, user_unit
 
 NODE_NONE = 65535
 RNG_SEED = 20240612
@@ -142,33 +144,37 @@ def oracle():
     return out
 
 
-def _compile(toolchain, tmp_path, header: bytes, fixed: bool, harness, extra=()):
-    (tmp_path / "t.h").write_bytes(header)
-    (tmp_path / "h.c").write_text(harness("t.h", "synthetic_grill", fixed, True))
-    exe = tmp_path / "h"
-    proc = toolchain.compile([tmp_path / "h.c"], exe, extra)
+def _compile(toolchain, tmp_path, files: dict, fixed: bool, harness, extra=()):
+    """The bilinear harness built with the table's files (``.h``, and ``.c`` if split)."""
+    source = harness("synthetic_grill.h", "synthetic_grill", fixed, True)
+    proc, exe = build_program(toolchain, tmp_path, files, source, extra)
     assert proc.returncode == 0, proc.stderr
     return exe
 
 
-def _target(name: str, **changes):
-    return replace(load_target(name), **changes) if changes else load_target(name)
+def _target(name: str, layout: str = "split", **changes):
+    target = load_target(name) if layout == "split" else header_only(name)
+    return replace(target, **changes) if changes else target
 
 
 TARGETS = [
-    ("c99_bilinear", {}, "f32"),
-    ("c99_fixed_bilinear", {}, "int"),
-    ("c99_fixed_bilinear", {"time_type": "uint16_t"}, "int"),
+    ("c99_bilinear", "split", {}, "f32"),
+    ("c99_bilinear", "header_only", {}, "f32"),
+    ("c99_fixed_bilinear", "split", {}, "int"),
+    ("c99_fixed_bilinear", "header_only", {"time_type": "uint16_t"}, "int"),
 ]
 
 
-@pytest.mark.parametrize(("target", "changes", "form"), TARGETS)
-def test_bilinear_c_matches_python(toolchain, tmp_path, harness, oracle, target, changes, form):
+@pytest.mark.parametrize(("target", "layout", "changes", "form"), TARGETS)
+def test_bilinear_c_matches_python(
+    toolchain, tmp_path, harness, oracle, target, layout, changes, form
+):
     m, stdin, want = oracle["std", form]
-    header = emit(m, _target(target, **changes))["synthetic_grill.h"]
+    files = emit(m, _target(target, layout, **changes))
     if form == "int":
-        assert not re.search(rb"\b(float|double)\b", header), "integer-only header names float"
-    exe = _compile(toolchain, tmp_path, header, form == "int", harness)
+        for name, data in files.items():
+            assert not re.search(rb"\b(float|double)\b", data), f"integer-only {name} names float"
+    exe = _compile(toolchain, tmp_path, files, form == "int", harness)
     got = toolchain.run(exe, [form], stdin).splitlines()
     assert len(got) == len(want) > 3000
     bad = [(n, g, w) for n, (g, w) in enumerate(zip(got, want, strict=True)) if g != w]
@@ -189,7 +195,7 @@ PAIRS = [("c99_bilinear", "f32"), ("c99_fixed_bilinear", "int")]
 def test_ticks_at_the_int64_guard_match_python(toolchain, tmp_path, harness, oracle, target, form):
     """Longest done exactly 2**24 ticks: the weighted sums reach about 2**56 in int64."""
     m, stdin, want = oracle["big", form]
-    exe = _compile(toolchain, tmp_path, emit(m, load_target(target))["synthetic_grill.h"],
+    exe = _compile(toolchain, tmp_path, emit(m, load_target(target)),
                    form == "int", harness)  # fmt: skip
     got = toolchain.run(exe, [form], stdin).splitlines()
     assert got == want
@@ -200,11 +206,11 @@ def test_ticks_at_the_int64_guard_match_python(toolchain, tmp_path, harness, ora
 def test_bilinear_table_data(host_cc, tmp_path, harness, make_cells_manifest, target):
     """Node rows unpadded, one row per cell: applied rule, pad, margin rounded down."""
     m = make_cells_manifest()
-    exe = _compile(host_cc, tmp_path, emit(m, load_target(target))["synthetic_grill.h"],
+    exe = _compile(host_cc, tmp_path, emit(m, load_target(target)),
                    "fixed" in target, harness)  # fmt: skip
     lines = host_cc.run(exe, ["dump"]).splitlines()
     # bytes: 4 * 7 axes + 12 * (1 + 4 * 5 + 4) nodes + 6 * (1 + 4 + 4) cells = 382
-    assert lines[0] == "version 1 nodes 4 3 12 events 4 tick_us 100000 bytes 382"
+    assert lines[0] == f"version {FORMAT_VERSION} nodes 4 3 12 events 4 tick_us 100000 bytes 382"
     nodes = [line for line in lines if line.startswith("node ")]
     for k, (row, node) in enumerate(zip(nodes, m["nodes"], strict=True)):
         events = [f"{m['event_kinds'][e['kind']]}:{e['at_ticks']}" for e in node["events"]]
@@ -224,13 +230,12 @@ def test_bilinear_table_data(host_cc, tmp_path, harness, make_cells_manifest, ta
 @pytest.mark.parametrize("target", ["c99_bilinear", "c99_fixed_bilinear"])
 def test_bilinear_header_is_clean_under_firmware_warnings(toolchain, tmp_path, target):
     """Common firmware warning set (common practice), incl. -Wpadded and -Wconversion."""
-    for time_type in ("uint32_t", "uint16_t"):
-        header = emit(cells_manifest(), _target(target, time_type=time_type))
-        (tmp_path / "t.h").write_bytes(header["synthetic_grill.h"])
-        arg = "int32_t" if "fixed" in target else "float"
-        (tmp_path / "u.c").write_text(USER_UNIT.replace("@arg@", arg))
-        proc = toolchain.compile([tmp_path / "u.c"], tmp_path / "u.o", ("-c", *FIRMWARE_WARNINGS))
-        assert proc.returncode == 0, (time_type, proc.stderr)
+    for layout in ("split", "header_only"):
+        for time_type in ("uint32_t", "uint16_t"):
+            files = emit(cells_manifest(), _target(target, layout, time_type=time_type))
+            problems = compile_units(toolchain, tmp_path, files, user_unit("fixed" in target),
+                                     FIRMWARE_WARNINGS)  # fmt: skip
+            assert not problems, (layout, time_type, problems)
 
 
 def test_single_value_axis_is_refused_naming_the_axis():
@@ -279,7 +284,7 @@ def test_bad_cells_are_named(path, value, pattern):
     m = cells_manifest()
     rule, k, key = path
     m["cells"][rule][k][key] = value
-    with pytest.raises(EmitError, match=pattern):
+    with pytest.raises(ManifestError, match=pattern):
         emit(m, load_target("json"))
 
 

@@ -9,16 +9,16 @@ from __future__ import annotations
 
 from obvert.firmware.lookup import lookup_f32
 
+from .conftest import build_program
 from .test_c_header import _hex32, expected_line, float_queries
 
 
 def test_built_header_matches_python_lookup(toolchain, tmp_path, harness, built) -> None:
     m = built.manifest
     name = m["table"]["name"]
-    (tmp_path / f"{name}.h").write_bytes((built.out / f"{name}.h").read_bytes())
-    (tmp_path / "harness.c").write_text(harness(f"{name}.h", name, False))
-    exe = tmp_path / "harness"
-    proc = toolchain.compile([tmp_path / "harness.c"], exe)
+    files = {p.name: p.read_bytes() for p in built.out.iterdir() if p.suffix in (".c", ".h")}
+    assert sorted(files) == [f"{name}.c", f"{name}.h"]  # c99: data and lookup in the .c file
+    proc, exe = build_program(toolchain, tmp_path, files, harness(f"{name}.h", name, False))
     assert proc.returncode == 0, proc.stderr
     queries = float_queries(m, n_random=2000)
     stdin = "".join(f"{_hex32(x)} {_hex32(t)}\n" for x, t in queries)

@@ -18,7 +18,8 @@ from fractions import Fraction
 import numpy as np
 import pytest
 
-from obvert.emitter import emit, load_target
+from obvert.emitter import TargetProfile, emit, load_target
+from obvert.firmware import FORMAT_VERSION
 from obvert.firmware.lookup import (
     LookupResult,
     lookup,
@@ -29,6 +30,8 @@ from obvert.firmware.lookup import (
     thickness_axis_mm_f32,
     thickness_axis_um,
 )
+
+from .conftest import build_program, compile_units, header_only
 
 RNG_SEED = 20240611
 F32_SPECIALS = np.array(
@@ -83,23 +86,31 @@ def _hex32(v: np.float32) -> str:
     return f"{int(np.float32(v).view(np.uint32)):08x}"
 
 
-def _build(toolchain, tmp_path, header_bytes: bytes, name: str, prefix: str, fixed: bool, src):
-    (tmp_path / f"{name}.h").write_bytes(header_bytes)
-    (tmp_path / "harness.c").write_text(src(f"{name}.h", prefix, fixed))
-    exe = tmp_path / "harness"
-    proc = toolchain.compile([tmp_path / "harness.c"], exe)
+LAYOUTS = ("split", "header_only")
+
+
+def _target(name: str, layout: str = "split") -> TargetProfile:
+    return load_target(name) if layout == "split" else header_only(name)
+
+
+def _files(manifest: dict, target: str, layout: str = "split") -> dict[str, bytes]:
+    """Every file of ``target`` for ``manifest`` (``.h``, and ``.c`` in layout split)."""
+    return emit(manifest, _target(target, layout))
+
+
+def _build(toolchain, tmp_path, files: dict, prefix: str, fixed: bool, harness, bilinear=False):
+    """The lookup harness built with the table's files; returns the executable."""
+    header = next(n for n in files if n.endswith(".h"))
+    source = harness(header, prefix, fixed, bilinear)
+    proc, exe = build_program(toolchain, tmp_path, files, source)
     assert proc.returncode == 0, proc.stderr
     return exe
 
 
-def _header(manifest: dict, target: str) -> bytes:
-    return emit(manifest, load_target(target))[f"{manifest['table']['name']}.h"]
-
-
-def test_float_lookup_matches_python(toolchain, tmp_path, make_manifest, harness):
+@pytest.mark.parametrize("layout", LAYOUTS)
+def test_float_lookup_matches_python(toolchain, tmp_path, make_manifest, harness, layout):
     m = make_manifest()
-    exe = _build(toolchain, tmp_path, _header(m, "c99"), "synthetic_grill", m["table"]["name"],
-                 False, harness)  # fmt: skip
+    exe = _build(toolchain, tmp_path, _files(m, "c99", layout), m["table"]["name"], False, harness)
     queries = float_queries(m)
     stdin = "".join(f"{_hex32(x)} {_hex32(t)}\n" for x, t in queries)
     got = toolchain.run(exe, ["f32"], stdin).splitlines()
@@ -116,8 +127,7 @@ def test_float_lookup_matches_python(toolchain, tmp_path, make_manifest, harness
 def test_metre_inputs_match_python(toolchain, tmp_path, make_manifest, harness):
     """``lookup(m, thickness_m, t)`` equals C called with (float)(thickness_m * 1000.0)."""
     m = make_manifest()
-    exe = _build(toolchain, tmp_path, _header(m, "c99"), "synthetic_grill", m["table"]["name"],
-                 False, harness)  # fmt: skip
+    exe = _build(toolchain, tmp_path, _files(m, "c99"), m["table"]["name"], False, harness)
     ax = np.array(m["axes"]["thickness_m"])
     at = np.array(m["axes"]["start_temp_c"])
     xs = np.concatenate([ax, np.nextafter(ax, 1.0), np.nextafter(ax, -1.0), [0.0, 1.0, np.nan]])
@@ -134,11 +144,13 @@ def test_metre_inputs_match_python(toolchain, tmp_path, make_manifest, harness):
     assert got == want
 
 
-def test_fixed_lookup_matches_python(toolchain, tmp_path, make_manifest, harness):
+@pytest.mark.parametrize("layout", LAYOUTS)
+def test_fixed_lookup_matches_python(toolchain, tmp_path, make_manifest, harness, layout):
     m = make_manifest()
-    header = _header(m, "c99_fixed")
-    assert not re.search(rb"\b(float|double)\b", header), "integer-only header mentions float"
-    exe = _build(toolchain, tmp_path, header, "synthetic_grill", m["table"]["name"], True, harness)
+    files = _files(m, "c99_fixed", layout)
+    for name, data in files.items():
+        assert not re.search(rb"\b(float|double)\b", data), f"integer-only {name} names float"
+    exe = _build(toolchain, tmp_path, files, m["table"]["name"], True, harness)
     ax, at = thickness_axis_um(m), start_temp_axis_cc(m)
 
     def probes(axis):
@@ -161,12 +173,14 @@ def test_table_data_matches_manifest(toolchain, tmp_path, make_manifest, harness
     """Dimensions, tick, byte count, axes and padded event rows as the compiler sees them."""
     m = make_manifest()
     fixed = target == "c99_fixed"
-    exe = _build(toolchain, tmp_path, _header(m, target), "synthetic_grill", m["table"]["name"],
-                 fixed, harness)  # fmt: skip
+    exe = _build(toolchain, tmp_path, _files(m, target), m["table"]["name"], fixed, harness)
     lines = toolchain.run(exe, ["dump"]).splitlines()
     n_x, n_t, n = 4, 3, 12
     # bytes: 4 * (4 + 3) axes + 12 * (1 count + 4 kinds + 4 * 4 ticks + 4 margin) = 328
-    assert lines[0] == f"version 1 nodes {n_x} {n_t} {n} events 4 tick_us 100000 bytes 328"
+    assert (
+        lines[0]
+        == f"version {FORMAT_VERSION} nodes {n_x} {n_t} {n} events 4 tick_us 100000 bytes 328"
+    )
     assert lines[1] == "null -1"
     if fixed:
         axes = [f"x {v}" for v in (6000, 9000, 12500, 15000)]
@@ -184,35 +198,10 @@ def test_table_data_matches_manifest(toolchain, tmp_path, make_manifest, harness
         assert row == f"node {k} {len(node['events'])} {_margin_mlog(node)} {cells}"
 
 
-def test_format_version_mismatch_is_a_compile_error(host_cc, tmp_path, make_manifest, harness):
-    m = make_manifest()
-    (tmp_path / "t.h").write_bytes(_header(m, "c99"))
-    (tmp_path / "h.c").write_text(harness("t.h", "synthetic_grill", False))
-    exe = tmp_path / "h"
-    bad = host_cc.compile([tmp_path / "h.c"], exe, ("-DSYNTHETIC_GRILL_EXPECT_FORMAT_VERSION=999",))
-    assert bad.returncode != 0
-    assert "table format version differs" in bad.stderr
-    good = host_cc.compile([tmp_path / "h.c"], exe, ("-DSYNTHETIC_GRILL_EXPECT_FORMAT_VERSION=1",))
-    assert good.returncode == 0, good.stderr
-
-
-def test_flash_budget_static_assert(host_cc, tmp_path, make_manifest, harness):
-    """The C byte count equals Python's (328): a budget of 328 builds, 327 does not."""
-    m = make_manifest()
-    header = _header(m, "c99").decode()
-    line = "#define SYNTHETIC_GRILL_FLASH_BUDGET_BYTES 65536UL"
-    assert line in header
-    (tmp_path / "h.c").write_text(harness("t.h", "synthetic_grill", False))
-    for budget, ok in ((328, True), (327, False)):
-        (tmp_path / "t.h").write_text(header.replace(line, line.replace("65536", str(budget))))
-        proc = host_cc.compile([tmp_path / "h.c"], tmp_path / "h")
-        assert (proc.returncode == 0) is ok, proc.stderr
-        if not ok:
-            assert "check_flash_budget" in proc.stderr
-
-
 TWO_TABLES = r"""
 #include <stdio.h>
+#define FIRST_EXPECT_FORMAT_VERSION @version@
+#define SECOND_EXPECT_FORMAT_VERSION @version@
 #include "first.h"
 #include "second.h"
 #include "first.h"
@@ -230,6 +219,8 @@ int main(void)
 """
 
 OTHER_UNIT = r"""
+#define FIRST_EXPECT_FORMAT_VERSION @version@
+#define SECOND_EXPECT_FORMAT_VERSION @version@
 #include "second.h"
 #include "first.h"
 int other_unit(void)
@@ -240,16 +231,20 @@ int other_unit(void)
 """
 
 
-def test_two_tables_link_into_one_program(host_cc, tmp_path, make_manifest):
+def _versioned(source: str) -> str:
+    return source.replace("@version@", str(FORMAT_VERSION))
+
+
+@pytest.mark.parametrize("layout", LAYOUTS)
+def test_two_tables_link_into_one_program(host_cc, tmp_path, make_manifest, layout):
     """Two tables with different prefixes, both in two translation units, link and run."""
     first = make_manifest("first")
     second = make_manifest("second", thickness_m=(0.008, 0.02), start_temp_c=(-20.0, 5.0))
-    (tmp_path / "first.h").write_bytes(_header(first, "c99"))
-    (tmp_path / "second.h").write_bytes(_header(second, "c99"))
-    (tmp_path / "main.c").write_text(TWO_TABLES)
-    (tmp_path / "other.c").write_text(OTHER_UNIT)
-    exe = tmp_path / "two"
-    proc = host_cc.compile([tmp_path / "main.c", tmp_path / "other.c"], exe)
+    files = {**_files(first, "c99", layout), **_files(second, "c99", layout)}
+    assert len(files) == (4 if layout == "split" else 2)
+    (tmp_path / "other.c").write_text(_versioned(OTHER_UNIT))
+    proc, exe = build_program(host_cc, tmp_path, files, _versioned(TWO_TABLES),
+                              (str(tmp_path / "other.c"),))  # fmt: skip
     assert proc.returncode == 0, proc.stderr
     a, b = lookup_f32(first, 7.0, -3.0), lookup_f32(second, 9.0, -3.0)
     other = lookup_f32(second, 20.0, 0.0).status + 12 * 100 + 4
@@ -257,18 +252,31 @@ def test_two_tables_link_into_one_program(host_cc, tmp_path, make_manifest):
     assert host_cc.run(exe, []).strip() == want
 
 
-def test_header_compiles_as_cplusplus(tmp_path, make_manifest):
-    """Not required, but the extern "C" guards should hold: g++ -std=c++11 -pedantic."""
+@pytest.mark.parametrize("layout", LAYOUTS)
+def test_header_compiles_as_cplusplus(tmp_path, make_manifest, layout):
+    """Not required, but the extern "C" guards should hold: g++ -std=c++11 -pedantic (the
+    table's .c file, in layout split, compiled as C and linked in)."""
     cxx = "g++"
-    if not shutil.which(cxx):
-        pytest.skip("g++ not installed")
-    (tmp_path / "t.h").write_bytes(_header(make_manifest(), "c99"))
+    if not (shutil.which(cxx) and shutil.which("gcc")):
+        pytest.skip("g++ or gcc not installed")
+    files = _files(make_manifest(), "c99", layout)
+    for name, data in files.items():
+        (tmp_path / name).write_bytes(data)
     (tmp_path / "t.cpp").write_text(
-        '#include "t.h"\nint main() { synthetic_grill_schedule_t s;\n'
+        f"#define SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION {FORMAT_VERSION}\n"
+        '#include "synthetic_grill.h"\nint main() { synthetic_grill_schedule_t s;\n'
         "  return synthetic_grill_lookup(7.0f, 1.0f, &s) == SYNTHETIC_GRILL_OK ? 0 : 1; }\n"
     )
+    objects = []
+    if "synthetic_grill.c" in files:
+        obj = tmp_path / "table.o"
+        cmd = ["gcc", "-std=c99", "-Wall", "-Wextra", "-Werror", "-pedantic", "-c",
+               str(tmp_path / "synthetic_grill.c"), "-o", str(obj)]  # fmt: skip
+        c_proc = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
+        assert c_proc.returncode == 0, c_proc.stderr
+        objects.append(str(obj))
     cmd = [cxx, "-std=c++11", "-Wall", "-Wextra", "-Werror", "-pedantic", str(tmp_path / "t.cpp"),
-           "-o", str(tmp_path / "t")]  # fmt: skip
+           *objects, "-o", str(tmp_path / "t")]  # fmt: skip
     proc = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
     assert proc.returncode == 0, proc.stderr
     assert subprocess.run([str(tmp_path / "t")], timeout=60).returncode == 0
@@ -281,29 +289,44 @@ FIRMWARE_WARNINGS = (
 )  # fmt: skip
 
 USER_UNIT = r"""
-#include "t.h"
+#define SYNTHETIC_GRILL_EXPECT_FORMAT_VERSION @version@
+#include "synthetic_grill.h"
 int firmware_step(@arg@ x, @arg@ t);
 int firmware_step(@arg@ x, @arg@ t)
 {
     synthetic_grill_schedule_t s;
     int status = synthetic_grill_lookup(x, t, &s);
-    return status == SYNTHETIC_GRILL_OK ? (int)s.n_events : status;
+    if (status != SYNTHETIC_GRILL_OK) {
+        return status;
+    }
+    return (int)s.cook_ticks + (int)s.kinds[0] + (int)s.n_events;
 }
 """
 
 
+def user_unit(fixed: bool) -> str:
+    """A firmware unit calling the lookup, for compile-only tests.
+
+    The schedule lives on the caller's stack and the caller reads ``cook_ticks`` and
+    ``kinds[0]``: with the lookup inlined (header-only) this is where gcc -O2/-O3 once saw a
+    read of an unset entry in the bilinear lookup (-Wmaybe-uninitialized).
+    """
+    arg = "int32_t" if fixed else "float"
+    return _versioned(USER_UNIT).replace("@arg@", arg)
+
+
+@pytest.mark.parametrize("layout", LAYOUTS)
 @pytest.mark.parametrize("target", ["c99", "c99_fixed"])
 def test_header_is_clean_under_stricter_firmware_warnings(toolchain, tmp_path, make_manifest,
-                                                          target):  # fmt: skip
+                                                          target, layout):  # fmt: skip
     """Common firmware warning set (common practice), incl. -Wpadded and -Wconversion.
 
     -Wfloat-equal is left out on purpose: the NaN test is ``x != x`` by design.
     """
-    (tmp_path / "t.h").write_bytes(_header(make_manifest(), target))
-    arg = "int32_t" if target == "c99_fixed" else "float"
-    (tmp_path / "u.c").write_text(USER_UNIT.replace("@arg@", arg))
-    proc = toolchain.compile([tmp_path / "u.c"], tmp_path / "u.o", ("-c", *FIRMWARE_WARNINGS))
-    assert proc.returncode == 0, proc.stderr
+    files = _files(make_manifest(), target, layout)
+    problems = compile_units(toolchain, tmp_path, files, user_unit(target == "c99_fixed"),
+                             FIRMWARE_WARNINGS)  # fmt: skip
+    assert not problems, problems
 
 
 @pytest.mark.parametrize("target", ["c99", "c99_fixed"])
@@ -312,8 +335,7 @@ def test_corner_done_pads_match_python(toolchain, tmp_path, harness, make_cells_
     done); the C API is unchanged and the answers equal ``lookup(..., rule="corner")``."""
     m = make_cells_manifest()
     fixed = target == "c99_fixed"
-    exe = _build(toolchain, tmp_path, _header(m, target), "synthetic_grill", m["table"]["name"],
-                 fixed, harness)  # fmt: skip
+    exe = _build(toolchain, tmp_path, _files(m, target), m["table"]["name"], fixed, harness)
     if fixed:
         ax, at = thickness_axis_um(m), start_temp_axis_cc(m)
         pairs = [(int(x) + d, int(t) + e) for x in ax for t in at for d in (-1, 0, 1)

@@ -26,6 +26,8 @@ from obvert.certify.batch import judge_many
 from obvert.certify.cells import schedule_of
 from obvert.problem import problem_of
 
+from .conftest import build_program
+
 DRAWS = 2000
 
 
@@ -36,10 +38,9 @@ def _hex64(v: float) -> str:
 def draw_cases(spec, manifest, toolchain, tmp_path, harness, out_dir, n: int, seed: int):
     """``n`` random (measured point, real conditions) cases and their C-lookup schedules."""
     name = manifest["table"]["name"]
-    (tmp_path / f"{name}.h").write_bytes((out_dir / f"{name}.h").read_bytes())
-    (tmp_path / "harness.c").write_text(harness(f"{name}.h", name, False, bilinear=True))
-    exe = tmp_path / "harness"
-    proc = toolchain.compile([tmp_path / "harness.c"], exe)
+    files = {p.name: p.read_bytes() for p in out_dir.iterdir() if p.suffix in (".c", ".h")}
+    source = harness(f"{name}.h", name, False, bilinear=True)
+    proc, exe = build_program(toolchain, tmp_path, files, source)
     assert proc.returncode == 0, proc.stderr
     rng = np.random.default_rng(seed)
     env = manifest["envelope"]

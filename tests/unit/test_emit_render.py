@@ -108,13 +108,14 @@ def test_extra_fields_are_tolerated_and_kept_in_json():
     m2["nodes"][0]["events"][0]["note"] = "x"
     files = emit(m2, load_target("json"))
     assert json.loads(files["synthetic_grill.json"])["nodes"][0]["new_field"] == 3.5
-    # The header changes only in its manifest hash line.
+    # The header changes only in its manifest hash line and the table id taken from it.
     diff = [
         (a, b)
         for a, b in zip(plain.splitlines(), emit(m2, C99)[HEADER].splitlines(), strict=True)
         if a != b
     ]
-    assert len(diff) == 1 and diff[0][0].startswith(b" * Manifest sha256:")
+    assert len(diff) == 2 and diff[0][0].startswith(b" * Manifest sha256:")
+    assert diff[1][0].startswith(b"#define SYNTHETIC_GRILL_TABLE_ID 0x")
 
 
 def test_tick_must_be_whole_microseconds_for_c_only():
@@ -162,12 +163,31 @@ def test_symbol_prefix_renames_everything():
 
 
 def test_fixed_target_has_no_floating_point():
-    text = emit(manifest(), load_target("c99_fixed"))[HEADER].decode()
-    assert not re.search(r"\b(float|double)\b", text)
+    files = emit(manifest(), load_target("c99_fixed"))
+    assert sorted(files) == ["synthetic_grill.c", HEADER]
+    for text in (data.decode() for data in files.values()):
+        assert not re.search(r"\b(float|double)\b", text)
     assert (
-        "static inline int synthetic_grill_lookup(int32_t thickness_um, int32_t start_temp_cc,"
-        in text
+        "int synthetic_grill_lookup(int32_t thickness_um, int32_t start_temp_cc, "
+        "synthetic_grill_schedule_t *out);" in files[HEADER].decode()
     )
+
+
+def test_table_id_and_header_name_reach_the_source():
+    """The .c file includes the header by its output file name and checks its table id."""
+    target = c_target(
+        layout="split",
+        outputs=(OutputSpec("{prefix}_tab.h", "c/table.h.j2"), OutputSpec("x.c", "c/table.c.j2")),
+        symbol_prefix="grill_b",
+    )
+    files = emit(manifest(), target)
+    source, header = files["x.c"].decode(), files["grill_b_tab.h"].decode()
+    assert '#include "grill_b_tab.h"\n' in source
+    table_id = re.search(r"#define GRILL_B_TABLE_ID (0x[0-9A-F]{8}UL)\n", header).group(1)
+    assert f"GRILL_B_TABLE_ID != {table_id}\n" in source
+    sha = re.search(r"Manifest sha256: ([0-9a-f]{64})", header).group(1)
+    assert int(table_id[2:10], 16) == int(sha[:8], 16)
+    assert "static" not in header  # declarations only: the data and the lookup are in x.c
 
 
 def test_strict_environment():

@@ -32,7 +32,11 @@ def test_builtins_load():
     assert {"c99", "c99_fixed", "json"} <= set(builtin_targets())
     c99 = load_target("c99")
     assert c99.number_format == "float" and c99.time_type == "uint32_t"
-    assert c99.outputs == (OutputSpec(filename="{table}.h", template="c/table.h.j2"),)
+    assert c99.outputs == (
+        OutputSpec(filename="{table}.h", template="c/table.h.j2"),
+        OutputSpec(filename="{table}.c", template="c/table.c.j2"),
+    )
+    assert c99.layout == "split"
     assert c99.source == "builtin:c99"
     assert load_target("c99_fixed").number_format == "fixed"
     assert load_target("json").outputs[0].serializer == "canonical_json"
@@ -56,6 +60,43 @@ def test_full_profile_parses_every_key():
     )
     assert p.prefix_for("harbour_12") == "grill_a"
     assert load_target("c99").prefix_for("harbour_12") == "harbour_12"
+
+
+SPLIT = """
+name = "pair"
+description = "data once in a .c file"
+layout = "split"
+
+[[outputs]]
+filename = "{prefix}.h"
+template = "c/table.h.j2"
+
+[[outputs]]
+filename = "{prefix}.c"
+template = "c/table.c.j2"
+"""
+
+
+def test_layout_key():
+    assert loads_target(GOOD, "demo.toml").layout == "header_only"  # the default
+    assert loads_target(SPLIT, "pair.toml").layout == "split"
+    with pytest.raises(ProfileError, match=r"p\.toml: layout = 'inline': allowed"):
+        loads_target(SPLIT.replace('"split"', '"inline"'), "p.toml")
+
+
+@pytest.mark.parametrize(
+    ("old", "new", "pattern"),
+    [
+        ('template = "c/table.c.j2"', 'template = "c/table.h.j2"', r"found 2 and 0"),
+        ('filename = "{prefix}.c"\ntemplate = "c/table.c.j2"\n', 'filename = "{prefix}.json"\n'
+         'serializer = "canonical_json"\n', r"layout = 'split' needs exactly one .* found 1 and 0"),
+        ('layout = "split"', 'layout = "header_only"', r"layout = 'header_only' allows .* 1 and 1"),
+    ],
+)  # fmt: skip
+def test_layout_needs_its_outputs(old, new, pattern):
+    assert old in SPLIT
+    with pytest.raises(ProfileError, match=pattern):
+        loads_target(SPLIT.replace(old, new), "pair.toml")
 
 
 def test_profile_is_frozen():

@@ -165,7 +165,11 @@ def _rule_lines(manifest: dict[str, Any], target: TargetProfile) -> list[str]:
 
 
 def _banner(
-    manifest: dict[str, Any], target: TargetProfile, fixed: bool, cells: list[Any]
+    manifest: dict[str, Any],
+    target: TargetProfile,
+    fixed: bool,
+    cells: list[Any],
+    manifest_hash: str,
 ) -> list[str]:
     """Comment lines of the header banner (no timestamp: the header is reproducible)."""
     gen, table, safety = manifest["generator"], manifest["table"], manifest["safety"]
@@ -187,7 +191,7 @@ def _banner(
         "Generated file: do not edit; rebuild it from the spec instead.",
         *_wrap(f"Target profile: {target.name} ({target.description})"),
         f"Spec sha256:     {manifest['spec_hash']}",
-        f"Manifest sha256: {canonical_sha256(manifest)}",
+        f"Manifest sha256: {manifest_hash}",
         "",
         "FOOD-SAFETY CAUTION:",
         *_wrap(manifest["caution"]),
@@ -234,8 +238,66 @@ def _bound_lines(manifest: dict[str, Any]) -> list[str]:
     return lines
 
 
-def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]:
-    """Template context of a C header for ``manifest`` on ``target``.
+def _arrays(
+    p: str, args: tuple[str, str], axis_type: str, time_type: str, bilinear: bool
+) -> list[dict[str, str]]:
+    """The const arrays in the order they are defined.
+
+    Each: C name, element type, dimensions (macros, for the ``extern`` declarations), the
+    macro counting its rows and the name of its size check.
+    """
+    pp = p.upper()
+    x_arg, t_arg = args
+    node_row = f"[{pp}_N_NODES][{pp}_MAX_EVENTS]"
+    arrays = [
+        (f"{p}_axis_{x_arg}", axis_type,
+         f"[{pp}_N_THICKNESS]", f"{pp}_N_THICKNESS", "n_thickness"),
+        (f"{p}_axis_{t_arg}", axis_type,
+         f"[{pp}_N_START_TEMP]", f"{pp}_N_START_TEMP", "n_start_temp"),
+        (f"{p}_event_count", "uint8_t", f"[{pp}_N_NODES]", f"{pp}_N_NODES", "event_count"),
+        (f"{p}_event_kind", "uint8_t", node_row, f"{pp}_N_NODES", "event_kind"),
+        (f"{p}_event_ticks", time_type, node_row, f"{pp}_N_NODES", "event_ticks"),
+        (f"{p}_margin_mlog", "int32_t", f"[{pp}_N_NODES]", f"{pp}_N_NODES", "margin"),
+    ]  # fmt: skip
+    if bilinear:
+        arrays += [
+            (f"{p}_cell_rule", "uint8_t", f"[{pp}_N_CELLS]", f"{pp}_N_CELLS", "cell_rule"),
+            (f"{p}_cell_pad_ticks", time_type, f"[{pp}_N_CELLS]", f"{pp}_N_CELLS", "cell_pad"),
+            (f"{p}_cell_margin_mlog", "int32_t", f"[{pp}_N_CELLS]", f"{pp}_N_CELLS",
+             "cell_margin"),
+        ]  # fmt: skip
+    keys = ("name", "ctype", "dims", "count", "check")
+    return [dict(zip(keys, a, strict=True)) for a in arrays]
+
+
+def _sum_lines(arrays: list[dict[str, str]], per_line: int = 2) -> list[str]:
+    """Lines of the ``DATA_BYTES`` macro: ``sizeof`` of every array, continued lines."""
+    terms = [f"sizeof({a['name']})" for a in arrays]
+    chunks = [" + ".join(terms[k : k + per_line]) for k in range(0, len(terms), per_line)]
+    lines = [(" " if k else "(") + chunk for k, chunk in enumerate(chunks)]
+    return [line + " + \\" for line in lines[:-1]] + [lines[-1] + ")"]
+
+
+def _layout(target: TargetProfile) -> dict[str, Any]:
+    """Storage classes of the C layout.
+
+    ``split`` defines the data and the lookup once in the ``.c`` file (external linkage,
+    declared in the header); ``header_only`` gives every translation unit its own
+    ``static`` copy and a ``static inline`` lookup.
+    """
+    split = target.layout == "split"
+    return {
+        "split": split,
+        "data_storage": "" if split else "static ",
+        "lookup_storage": "" if split else "static inline ",
+        "helper_storage": "static " if split else "static inline ",
+    }
+
+
+def c_context(
+    manifest: dict[str, Any], target: TargetProfile, header_file: str | None = None
+) -> dict[str, Any]:
+    """Template context of the C files for ``manifest`` on ``target``.
 
     Parameters
     ----------
@@ -243,6 +305,9 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
         A manifest already checked by :func:`obvert.firmware.validate.check_manifest`.
     target : TargetProfile
         The C target.
+    header_file : str or None
+        File name of the header, as the ``.c`` file includes it; None for
+        ``<table name>.h``.
 
     Returns
     -------
@@ -278,17 +343,32 @@ def c_context(manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]
             f"target {target.name!r} allows flash_budget_bytes = {budget} ({target.source})"
         )
     kinds = sorted(manifest["event_kinds"].items(), key=lambda kv: kv[1])
+    x_arg = "thickness_um" if fixed else "thickness_mm"
+    t_arg = "start_temp_cc" if fixed else "start_temp_c"
+    axis_type = "int32_t" if fixed else "float"
+    manifest_hash = canonical_sha256(manifest)
+    arrays = _arrays(prefix, (x_arg, t_arg), axis_type, target.time_type, bilinear)
+    signature = (
+        f"int {prefix}_lookup({axis_type} {x_arg}, {axis_type} {t_arg}, {prefix}_schedule_t *out)"
+    )
     return {
         "p": prefix,
         "P": prefix.upper(),
         "guard": f"OBVERT_{prefix.upper()}_H",
-        "banner": _banner(manifest, target, fixed, extra["cells"]),
+        "header_file": header_file or f"{manifest['table']['name']}.h",
+        "table_id": int(manifest_hash[:8], 16),
+        "arrays": arrays,
+        "data_bytes_lines": _sum_lines(arrays),
+        "lookup_signature": signature,
+        "lookup_template": f"c/part/lookup_{target.lookup}.c.j2",
+        **_layout(target),
+        "banner": _banner(manifest, target, fixed, extra["cells"], manifest_hash),
         "spec_hash": manifest["spec_hash"],
         "format_version": int(manifest["format_version"]),
         "fixed": fixed,
-        "axis_type": "int32_t" if fixed else "float",
-        "thickness_arg": "thickness_um" if fixed else "thickness_mm",
-        "start_temp_arg": "start_temp_cc" if fixed else "start_temp_c",
+        "axis_type": axis_type,
+        "thickness_arg": x_arg,
+        "start_temp_arg": t_arg,
         "time_type": target.time_type,
         "tick_us": _tick_us(manifest),
         "axis_thickness": axis_x,

@@ -18,6 +18,7 @@ __all__ = [
     "c_comment",
     "c_comment_line",
     "c_float",
+    "c_hex32",
     "c_int",
     "c_string",
     "c_uint",
@@ -51,6 +52,11 @@ def c_uint(value: Any, suffix: str = "u") -> str:
     if suffix not in ("u", "UL"):
         raise ValueError(f"suffix = {suffix!r}: allowed 'u', 'UL'")
     return f"{_require_int(value, 0, UINT32_MAX, 'uint32')}{suffix}"
+
+
+def c_hex32(value: Any) -> str:
+    """C literal of a uint32 value in hexadecimal, eight digits (``0x0123ABCDUL``)."""
+    return f"0x{_require_int(value, 0, UINT32_MAX, 'uint32'):08X}UL"
 
 
 def _float32_text(value: Any) -> str:
@@ -138,6 +144,7 @@ FILTERS = {
     "c_comment": c_comment,
     "c_comment_line": c_comment_line,
     "c_float": c_float,
+    "c_hex32": c_hex32,
     "c_int": c_int,
     "c_string": c_string,
     "c_uint": c_uint,

@@ -10,13 +10,20 @@ A profile is data in a TOML file (``targets/*.toml``)::
     symbol_prefix = "grill_a"      # optional: C symbol prefix, default the table name
     tick_s = 0.1                   # optional: firmware tick, s; the table must match it
     lookup = "corner"              # optional: "corner" (default) or "bilinear" lookup rule
+    layout = "split"               # optional: "split" (.c + .h) or "header_only" (default)
 
     [[outputs]]
     filename = "{table}.h"         # placeholders: {table}, {prefix}
     template = "c/table.h.j2"      # a Jinja2 template of package obvert.templates ...
     # serializer = "canonical_json"  # ... or a built-in serializer (exactly one of the two)
 
-Unknown keys are an error naming the key and the file.
+    [[outputs]]                    # layout "split" only: the data and the lookup, once
+    filename = "{table}.c"
+    template = "c/table.c.j2"
+
+Unknown keys are an error naming the key and the file. A ``split`` target lists exactly one
+``c/table.h.j2`` and one ``c/table.c.j2`` output; a ``header_only`` target lists no
+``c/table.c.j2`` output.
 """
 
 from __future__ import annotations
@@ -41,6 +48,10 @@ __all__ = ["OutputSpec", "ProfileError", "TargetProfile", "load_target", "loads_
 NUMBER_FORMATS = ("float", "fixed")
 LOOKUP_RULES = ("corner", "bilinear")
 TIME_TYPES = ("uint16_t", "uint32_t")
+LAYOUTS = ("header_only", "split")
+#: Templates of the C layouts: the header (both layouts) and the source (``split`` only).
+C_HEADER_TEMPLATE = "c/table.h.j2"
+C_SOURCE_TEMPLATE = "c/table.c.j2"
 SERIALIZERS = ("canonical_json",)
 FILENAME_FIELDS = ("table", "prefix")
 _IDENT = re.compile(r"[a-z][a-z0-9_]*\Z")
@@ -55,6 +66,7 @@ _TOP_KEYS = (
     "symbol_prefix",
     "tick_s",
     "lookup",
+    "layout",
     "outputs",
 )
 _OUTPUT_KEYS = ("filename", "template", "serializer")
@@ -126,6 +138,11 @@ class TargetProfile:
     lookup : str
         Lookup rule of the generated C: ``"corner"`` (conservative corner) or
         ``"bilinear"`` (interpolation in the cell, see ``obvert.firmware.lookup``).
+    layout : str
+        Where the C data and lookup live: ``"split"`` (defined once in a ``.c`` file,
+        declared ``extern`` in the header: one copy per firmware) or ``"header_only"``
+        (``static const`` data and a ``static inline`` lookup in the header, for tiny
+        tables).
     source : str
         Where the profile was read from (file path or ``builtin:<name>``), for messages.
     """
@@ -139,6 +156,7 @@ class TargetProfile:
     symbol_prefix: str | None = None
     tick_s: float | None = None
     lookup: str = "corner"
+    layout: str = "header_only"
     source: str = "<python>"
 
     def __post_init__(self) -> None:
@@ -150,6 +168,7 @@ class TargetProfile:
         _check_choice(self.number_format, NUMBER_FORMATS, "number_format", where)
         _check_choice(self.time_type, TIME_TYPES, "time_type", where)
         _check_choice(self.lookup, LOOKUP_RULES, "lookup", where)
+        _check_choice(self.layout, LAYOUTS, "layout", where)
         self._check_optional_fields(where)
         self._check_outputs(where)
 
@@ -178,6 +197,21 @@ class TargetProfile:
         dupes = sorted({n for n in names if names.count(n) > 1})
         if dupes:
             raise ProfileError(f"{where}: outputs.filename repeated: {dupes}")
+        templates = [o.template for o in self.outputs]
+        n_header = templates.count(C_HEADER_TEMPLATE)
+        n_source = templates.count(C_SOURCE_TEMPLATE)
+        if self.layout == "split" and (n_header, n_source) != (1, 1):
+            raise ProfileError(
+                f"{where}: layout = 'split' needs exactly one output with template "
+                f"{C_HEADER_TEMPLATE!r} and one with {C_SOURCE_TEMPLATE!r}; found "
+                f"{n_header} and {n_source}"
+            )
+        if self.layout == "header_only" and (n_header > 1 or n_source):
+            raise ProfileError(
+                f"{where}: layout = 'header_only' allows at most one output with template "
+                f"{C_HEADER_TEMPLATE!r} and none with {C_SOURCE_TEMPLATE!r}; found "
+                f"{n_header} and {n_source}"
+            )
 
     def prefix_for(self, table_name: str) -> str:
         """C symbol prefix used for table ``table_name``."""

@@ -18,7 +18,7 @@ import jinja2
 from obvert.emitter.context import c_context
 from obvert.emitter.errors import EmitError
 from obvert.emitter.filters import FILTERS
-from obvert.emitter.profile import OutputSpec, TargetProfile
+from obvert.emitter.profile import C_HEADER_TEMPLATE, OutputSpec, TargetProfile
 from obvert.firmware.canonical import CanonicalError, canonical_json
 from obvert.firmware.validate import ManifestError, check_manifest
 
@@ -73,15 +73,21 @@ def render_template(name: str, context: Mapping[str, Any]) -> str:
     return template.render(**context)
 
 
-def _context(spec: OutputSpec, manifest: dict[str, Any], target: TargetProfile) -> dict[str, Any]:
+def _context(
+    spec: OutputSpec, manifest: dict[str, Any], target: TargetProfile, names: dict[str, str]
+) -> dict[str, Any]:
     """Context for a template: C templates get the C view; every template the manifest."""
     context: dict[str, Any] = {"manifest": manifest, "target": target}
     if spec.template is not None and spec.template.startswith("c/"):
-        context.update(c_context(manifest, target))
+        headers = [o for o in target.outputs if o.template == C_HEADER_TEMPLATE]
+        header = headers[0].filename.format(**names) if headers else None
+        context.update(c_context(manifest, target, header))
     return context
 
 
-def _render_one(spec: OutputSpec, manifest: dict[str, Any], target: TargetProfile) -> bytes:
+def _render_one(
+    spec: OutputSpec, manifest: dict[str, Any], target: TargetProfile, names: dict[str, str]
+) -> bytes:
     if spec.serializer == "canonical_json":
         try:
             return canonical_json(manifest)
@@ -89,7 +95,7 @@ def _render_one(spec: OutputSpec, manifest: dict[str, Any], target: TargetProfil
             raise ManifestError(f"manifest is not canonical JSON: {exc}") from None
     if spec.template is None:  # OutputSpec guarantees one of the two
         raise EmitError(f"output {spec.filename!r} has neither template nor serializer")
-    text = render_template(spec.template, _context(spec, manifest, target))
+    text = render_template(spec.template, _context(spec, manifest, target, names))
     return text.encode("utf-8")
 
 
@@ -127,5 +133,5 @@ def emit(manifest: dict[str, Any], target: TargetProfile) -> dict[str, bytes]:
         filename = spec.filename.format(**names)
         if filename in files:
             raise EmitError(f"target {target.name!r} writes {filename!r} twice for {table!r}")
-        files[filename] = _render_one(spec, manifest, target)
+        files[filename] = _render_one(spec, manifest, target, names)
     return files
