@@ -202,7 +202,7 @@ def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -
     >>> spec = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
     >>> files = obvert.emit(obvert.compile_table(spec, ["c99", "json"]), ["c99", "json"])
     >>> sorted(files)
-    ['brinecliff_patty.h', 'brinecliff_patty.json']
+    ['brinecliff_patty.c', 'brinecliff_patty.h', 'brinecliff_patty.json']
     """
     m = manifest(table) if isinstance(table, CookTable) else dict(table)
     spec = table.spec if isinstance(table, CookTable) else None

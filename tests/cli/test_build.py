@@ -25,7 +25,7 @@ def test_version_and_help() -> None:
 
 def test_build_writes_header_and_json(built) -> None:
     names = sorted(p.name for p in built.out.iterdir())
-    assert names == ["test_patty.h", "test_patty.json"]
+    assert names == ["test_patty.c", "test_patty.h", "test_patty.json"]
     header = (built.out / "test_patty.h").read_text()
     assert "#ifndef" in header and "test_patty_lookup" in header
     banner = " ".join(ln.strip(" */") for ln in header.split("*/")[0].splitlines())

@@ -6,7 +6,7 @@
  * Target profile: c99_bilinear (C99 table (.c and .h), bilinear binary32
  * lookup on thickness in mm and start temperature in degC)
  * Spec sha256:     1d3c4a48aa72de9682e07f2cec818205671c33753b4db5c692c7dceaeee1186e
- * Manifest sha256: 0e46009f22a0f1de821d8e9babcb703ac391a4840318112c0d8735fa05a401e6
+ * Manifest sha256: e5a1d8f8f95eb7d6e2536ef1927618afd4fc0cdeefb65a5f815d75671acb0605
  *
  * FOOD-SAFETY CAUTION:
  * Synthetic table for tests only: not a cook program. A real table must be
@@ -55,7 +55,7 @@
 #if !defined(SYNTHETIC_CELLS_FORMAT_VERSION) || SYNTHETIC_CELLS_FORMAT_VERSION != 2
 #error "synthetic_cells: the header has another table format version than this file"
 #endif
-#if !defined(SYNTHETIC_CELLS_TABLE_ID) || SYNTHETIC_CELLS_TABLE_ID != 0x0E46009FUL
+#if !defined(SYNTHETIC_CELLS_TABLE_ID) || SYNTHETIC_CELLS_TABLE_ID != 0xE5A1D8F8UL
 #error "synthetic_cells: the header comes from another build of the table than this file"
 #endif
 
@@ -159,12 +159,12 @@ const uint32_t synthetic_cells_cell_pad_ticks[] = {
 
 /* Certified smallest margin over the cell under this rule, 0.001 log10, rounded down. */
 const int32_t synthetic_cells_cell_margin_mlog[] = {
-    500, /* cell 0 */
-    537, /* cell 1 */
-    574, /* cell 2 */
-    11, /* cell 3 */
-    648, /* cell 4 */
-    685, /* cell 5 */
+    62, /* cell 0 */
+    180, /* cell 1 */
+    423, /* cell 2 */
+    541, /* cell 3 */
+    1187, /* cell 4 */
+    937, /* cell 5 */
 };
 
 /* Compile-time checks (C99: a negative array size stops the build). */
