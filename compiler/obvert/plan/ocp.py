@@ -1,11 +1,12 @@
 """Minimum-time cook planning on the reduced model with CasADi and IPOPT.
 
 For a fixed event sequence (say two flips then done) the decision variables are the dwell
-times between events. Each dwell is integrated implicitly (BDF, CVODES) on the spectral
-model with the dwell as a parameter, so IPOPT gets exact sensitivities. Constraints at
-removal: the log reduction at every node reaches the target, and, if asked, every node is
-at or above the minimum temperature; consecutive events are at least the appliance's minimum
-gap apart.
+times between events; each phase is transcribed by Radau collocation
+(:mod:`obvert.plan.collocation`, :mod:`obvert.plan._nlp`). Constraints at removal: the log
+reduction at every lethality point reaches the target, and, if asked, every point is at or
+above the minimum temperature; consecutive events are at least the appliance's minimum gap
+apart. :class:`Requirement`, :class:`Member` and :class:`PlanError` live in
+:mod:`obvert.plan.problem` and are re-exported here.
 """
 
 from __future__ import annotations
@@ -16,31 +17,13 @@ from dataclasses import dataclass
 import casadi as ca
 import numpy as np
 
-from obvert.plan._nlp import DWELL_SCALE_S, PlanError, Transcription, phase_specs
-from obvert.plan.collocation import Grid, PhaseBlock
+from obvert.plan._nlp import DWELL_SCALE_S, Transcription, phase_specs
+from obvert.plan.collocation import BlockCache, Grid, PhaseBlock
 from obvert.plan.modifier import Modifier
+from obvert.plan.problem import Member, PlanError, Requirement
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
-
-
-@dataclass(frozen=True)
-class Requirement:
-    """What the food must reach by removal.
-
-    Attributes
-    ----------
-    log_reduction : float
-        Log reduction every point must reach, log10 units.
-    min_temp_c : float | None
-        Temperature every point must be at or above at removal, degC (None: no such rule).
-    rest_s : float
-        Carry-over time after removal credited to lethality, s (0: no credit).
-    """
-
-    log_reduction: float
-    min_temp_c: float | None = None
-    rest_s: float = 0.0
 
 
 @dataclass(frozen=True)
@@ -80,23 +63,7 @@ class PlanResult:
     bias: tuple[tuple[float, float], ...] = ()
 
 
-@dataclass(frozen=True)
-class Member:
-    """One scenario a plan must satisfy: a slab model on an appliance, start offset.
-
-    Attributes
-    ----------
-    model : SpectralModel
-        Reduced model of the slab (its thickness and food properties).
-    env : Surroundings
-        Plate, air and platen conditions.
-    start_offset_k : float
-        Added to the requested start temperature, K (e.g. minus the measurement error).
-    """
-
-    model: SpectralModel
-    env: Surroundings
-    start_offset_k: float = 0.0
+__all__ = ["Member", "PlanError", "PlanResult", "Planner", "Requirement"]
 
 
 class Planner:
@@ -119,6 +86,8 @@ class Planner:
         Collocation elements per phase.
     extra : sequence of Member
         Further scenarios the same schedule must satisfy (same flip air time).
+    evaluation : str
+        How the collocation equations are evaluated (:data:`obvert.plan.collocation.EVALUATIONS`).
     """
 
     def __init__(
@@ -129,6 +98,7 @@ class Planner:
         min_gap_s: float,
         grid: Grid | None = None,
         extra: tuple[Member, ...] = (),
+        evaluation: str = "mx",
     ) -> None:
         self.model = model
         self.env = env
@@ -140,7 +110,7 @@ class Planner:
         self.min_gap_s = float(min_gap_s)
         self.grid = grid or Grid()
         self.hessian = "exact"
-        self._blocks: dict[tuple[int, FaceBC, FaceBC], PhaseBlock] = {}
+        self.blocks = BlockCache([mem.model for mem in self.members], self.grid, evaluation)
         self._traj: dict[tuple[int, FaceBC, FaceBC], ca.Function] = {}
         self._nlps: dict[tuple[str, ...], Transcription] = {}
         #: Every solution by (sequence, start, its dwells in s): NLP primal point, LR scales,
@@ -149,10 +119,7 @@ class Planner:
 
     def block(self, k: int, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
         """Collocation block of scenario ``k`` for a pair of face conditions (cached)."""
-        key = (k, face0, face1)
-        if key not in self._blocks:
-            self._blocks[key] = PhaseBlock(self.members[k].model, face0, face1, self.grid)
-        return self._blocks[key]
+        return self.blocks.block(k, face0, face1)
 
     def _trajectory(self, k: int, face0: FaceBC, face1: FaceBC) -> ca.Function:
         key = (k, face0, face1)
@@ -267,7 +234,9 @@ class Planner:
         equal-dwell guess only if they all fail.
         """
         if kinds not in self._nlps:
-            self._nlps[kinds] = Transcription(self, kinds)
+            self._nlps[kinds] = Transcription(
+                self.members, self.req, kinds, self.blocks, self.hessian
+            )
         tr = self._nlps[kinds]
         b = self._modifier(kinds, modifier)
         lb = self.lower_bounds(kinds)
