@@ -185,6 +185,12 @@ class Transcription:
         g = ca.vertcat(*res, *ineq)
         self.n_res = int(ca.vertcat(*res).shape[0])
         self.layouts = [me.layout for me in eqs]
+        #: Where each scenario's element lengths (s) sit in the primal vector.
+        self.time_blocks: list[slice] = []
+        at = self.n_dwell
+        for lay in self.layouts:
+            self.time_blocks.append(slice(at, at + lay.n_h))
+            at += lay.n_h + lay.n_lr + lay.n_z
         w = ca.vertcat(dwell_scaled, *[v for me in eqs for v in me.w])
         p = ca.vertcat(*[ca.vertcat(me.x0, me.scale, me.mod) for me in eqs])
         #: Per scenario, the smallest log reduction over the points and the coldest point at
@@ -209,10 +215,18 @@ class Transcription:
         Built on first use; IPOPT's warm-start initialisation, small initial barrier.
         """
         if not hasattr(self, "_warm"):
-            opts = {**_options(self._hessian), **WARM_OPTIONS}
+            opts = {**_options(self._hessian), **WARM_OPTIONS, "ipopt.max_iter": WARM_MAX_ITER}
             self._warm = ca.nlpsol("plan_warm", "ipopt", self._nlp, opts)
         return self._warm
 
+
+#: Iteration cap of a warm start: a start near the optimum needs a handful; one that has
+#: not converged by then is abandoned for the cold starts.
+WARM_MAX_ITER = 25
+
+#: Iteration cap of a cold start (bounds the cost of a failure; iterations, not wall time,
+#: so that results do not depend on machine speed).
+COLD_MAX_ITER = 300
 
 #: IPOPT options of a warm start (primal and dual point of a nearby solved problem).
 WARM_OPTIONS: dict[str, object] = {
@@ -238,7 +252,7 @@ def _options(hessian: str) -> dict[str, object]:
         "ipopt.acceptable_tol": 1e-5,
         "ipopt.acceptable_constr_viol_tol": 1e-8,
         "ipopt.acceptable_iter": 5,
-        "ipopt.max_iter": 300,
+        "ipopt.max_iter": COLD_MAX_ITER,
         "ipopt.max_wall_time": SOLVE_BUDGET_S,
         "ipopt.mu_strategy": "adaptive",
         "ipopt.mumps_pivot_order": 0,

@@ -12,7 +12,7 @@ apart. :class:`Requirement`, :class:`Member` and :class:`PlanError` live in
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import casadi as ca
 import numpy as np
@@ -20,7 +20,7 @@ import numpy as np
 from obvert.plan._nlp import DWELL_SCALE_S, Transcription, phase_specs
 from obvert.plan.collocation import BlockCache, Grid, PhaseBlock
 from obvert.plan.modifier import Modifier
-from obvert.plan.problem import Member, PlanError, Requirement
+from obvert.plan.problem import Member, PlanError, Requirement, Solution, predict
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
@@ -51,6 +51,11 @@ class PlanResult:
         Per scenario, the target correction at the solution (:class:`Modifier` shift):
         (log10 of the factor on the log reduction, kelvin on the removal temperature);
         zeros when uncorrected.
+    iterations : int
+        IPOPT iterations of the start that produced this result.
+    solution : Solution or None
+        The primal-dual point, to start a neighbouring node from (``neighbours`` of
+        :meth:`Planner.solve`); picklable.
     """
 
     schedule: Schedule
@@ -61,9 +66,11 @@ class PlanResult:
     member_log_reduction: tuple[float, ...] = ()
     member_temp_c: tuple[float, ...] = ()
     bias: tuple[tuple[float, float], ...] = ()
+    iterations: int = 0
+    solution: Solution | None = field(default=None, compare=False, repr=False)
 
 
-__all__ = ["Member", "PlanError", "PlanResult", "Planner", "Requirement"]
+__all__ = ["Member", "PlanError", "PlanResult", "Planner", "Requirement", "Solution"]
 
 
 class Planner:
@@ -219,6 +226,7 @@ class Planner:
         seeds: tuple[np.ndarray, ...] = (),
         modifier: Modifier | None = None,
         warm: bool = False,
+        neighbours: Sequence[Solution] = (),
     ) -> PlanResult:
         """Minimum-time schedule for the event sequence ``kinds`` (``done`` implied).
 
@@ -232,6 +240,16 @@ class Planner:
         kelvin, the shift being affine in the dwells. With ``warm`` the seeds
         are taken to be near the optimum: IPOPT starts from them alone, and from the
         equal-dwell guess only if they all fail.
+
+        ``neighbours`` (continuation): solutions (:attr:`PlanResult.solution`) of
+        neighbouring nodes with the same sequence, scenarios and grid, e.g. the previous
+        start temperature of the same thickness. IPOPT then starts from their primal-dual
+        point, predicted by :func:`obvert.plan.problem.predict` (dwells scaled with the
+        thickness squared, extrapolated linearly along the start temperature from two
+        neighbours), with at most :data:`~obvert.plan._nlp.WARM_MAX_ITER` iterations. If
+        that fails (e.g. across the freezing point), the predicted dwells are a seed as with
+        ``warm`` (states re-simulated, a cold IPOPT start), and the cold starts above run only
+        if that fails too.
         """
         if kinds not in self._nlps:
             self._nlps[kinds] = Transcription(
@@ -241,6 +259,19 @@ class Planner:
         b = self._modifier(kinds, modifier)
         lb = self.lower_bounds(kinds)
         errors: list[str] = []
+        if neighbours:
+            pred = predict(
+                neighbours, kinds, self.model.thickness_m, start_temp_c, tr.n_dwell, tr.time_blocks
+            )
+            d0 = np.clip(pred.primal[: tr.n_dwell] * DWELL_SCALE_S, lb, None)
+            ub = np.full(lb.size, max(1.5 * float(d0.sum()), lb.max() + 1.0))
+            try:
+                return self._solve_from(tr, start_temp_c, d0, lb, ub, b, point=pred)
+            except PlanError as exc:
+                errors.append(f"start from {len(neighbours)} neighbour(s): {exc}")
+            # the predicted dwells alone (states re-simulated), before the full cold starts
+            seeds = (d0, *seeds)
+            warm = True
         if warm and seeds:
             # a near-optimal seed (a correction round): skip the cold start unless it fails
             ub = np.full(lb.size, max(1.5 * float(np.sum(seeds[0])), lb.max() + 1.0))
@@ -285,20 +316,21 @@ class Planner:
         lb: np.ndarray,
         ub: np.ndarray,
         mod: Modifier,
+        point: Solution | None = None,
     ) -> PlanResult:
         kinds = tr.kinds
         bias0 = mod.shift(start)
         frac = self.grid.fractions()
         # a start at an earlier solution of this sequence and start temperature: IPOPT then
         # starts from that whole primal-dual point (states included), not a re-simulation
-        last = self._solutions.get((kinds, start_temp_c, tuple(float(v) for v in start)))
+        last = point or self._solutions.get((kinds, start_temp_c, tuple(float(v) for v in start)))
         warm = last is not None
         w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
         p, scales = [], []
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
             if warm:
-                scale = last[1][k]
+                scale = last.lr_scale[k]
             else:
                 stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
                 scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
@@ -318,8 +350,8 @@ class Planner:
         }
         if warm:
             solver = tr.warm_solver
-            x0 = np.clip(last[0], args["lbx"], args["ubx"])
-            sol = solver(x0=x0, lam_x0=last[2], lam_g0=last[3], **args)
+            x0 = np.clip(last.primal, args["lbx"], args["ubx"])
+            sol = solver(x0=x0, lam_x0=last.lam_x, lam_g0=last.lam_g, **args)
         else:
             solver = tr.solver
             sol = solver(x0=np.concatenate(w0), **args)
@@ -335,7 +367,16 @@ class Planner:
         dwell = w[: lb.size] * DWELL_SCALE_S
         duals = (np.array(sol["lam_x"]).ravel(), np.array(sol["lam_g"]).ravel())
         key = (kinds, start_temp_c, tuple(float(v) for v in dwell))
-        self._solutions[key] = (w.copy(), scales, *duals)
+        solution = Solution(
+            kinds,
+            self.model.thickness_m,
+            float(start_temp_c),
+            dwell.copy(),
+            w.copy(),
+            np.array(scales, dtype=float),
+            *duals,
+        )
+        self._solutions[key] = solution
         lr, t_rem = (np.array(v).ravel() for v in tr.outcome_of(w, np.concatenate(p)))
         schedule = self.schedule_of(kinds, dwell)
         return PlanResult(
@@ -347,6 +388,8 @@ class Planner:
             tuple(float(v) for v in lr),
             tuple(float(v) for v in t_rem),
             tuple((float(a), float(b)) for a, b in mod.shift(dwell)),
+            int(solver.stats()["iter_count"]),
+            solution,
         )
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:
