@@ -1,5 +1,8 @@
 """The nonlinear program of one event sequence (internal to :mod:`obvert.plan.ocp`).
 
+Everything it needs comes in as arguments (the scenarios, the requirement, the collocation
+blocks); it imports nothing from the planner.
+
 Decision variables: the dwell before each event (shared by every scenario), then for each
 scenario its element lengths, accumulated log reductions per phase, and collocation stage
 states. Constraints: collocation residuals of every scenario, the log-reduction target at
@@ -10,16 +13,17 @@ from __future__ import annotations
 
 import math
 import os
+from collections.abc import Sequence
 from dataclasses import dataclass
-from typing import TYPE_CHECKING
 
 import casadi as ca
 
+from obvert.plan.collocation import BlockCache
+from obvert.plan.problem import Member, PlanError, Requirement
 from obvert.plan.schedule import Surroundings
 from obvert.thermal.boundary import FaceBC
 
-if TYPE_CHECKING:
-    from obvert.plan.ocp import Member, Planner
+__all__ = ["DWELL_SCALE_S", "PlanError", "Transcription", "phase_specs"]
 
 #: Dwell decision variables are in units of this many seconds (keeps IPOPT steps balanced).
 DWELL_SCALE_S = 100.0
@@ -27,10 +31,6 @@ DWELL_SCALE_S = 100.0
 #: Wall-clock safety net of one IPOPT solve, s (iterations are capped first, so results do
 #: not depend on machine speed; a solve that needs longer counts as failed).
 SOLVE_BUDGET_S = 900.0
-
-
-class PlanError(RuntimeError):
-    """A minimum-time problem could not be solved."""
 
 
 @dataclass(frozen=True)
@@ -77,9 +77,15 @@ class _MemberEquations:
     """Collocation equations of one scenario under shared dwell variables."""
 
     def __init__(
-        self, planner: Planner, k: int, mem: Member, kinds: tuple[str, ...], dwell: ca.MX
+        self,
+        blocks: BlockCache,
+        req: Requirement,
+        k: int,
+        mem: Member,
+        kinds: tuple[str, ...],
+        dwell: ca.MX,
     ) -> None:
-        model, req, grid = mem.model, planner.req, planner.grid
+        model, grid = mem.model, blocks.grid
         n, m = model.n, model.m
         self.x0 = ca.MX.sym(f"x0_{k}", n)
         #: Scale of the log reduction at each lethality point (a parameter of the NLP).
@@ -103,7 +109,7 @@ class _MemberEquations:
         stages: list[ca.MX] = []
         self.t_removal: ca.MX | None = None
         for i, ph in enumerate(phases):
-            blk = planner.block(k, ph.face0, ph.face1)
+            blk = blocks.block(k, ph.face0, ph.face1)
             z = ca.MX.sym(f"z{k}_{i}", blk.n_stage_vars)
             stages.append(z)
             if ph.flip_before:
@@ -141,40 +147,65 @@ class _MemberEquations:
 
 
 class Transcription:
-    """The NLP of one event sequence over all scenarios (built once, solved per start)."""
+    """The NLP of one event sequence over all scenarios (built once, solved per start).
 
-    def __init__(self, planner: Planner, kinds: tuple[str, ...]) -> None:
+    Parameters
+    ----------
+    members : sequence of Member
+        The scenarios, main one first (their models must be those of ``blocks``).
+    requirement : Requirement
+        Safety target at removal.
+    kinds : tuple of str
+        Events before done.
+    blocks : BlockCache
+        Collocation blocks of the scenarios (shared between sequences).
+    hessian : str
+        IPOPT's ``hessian_approximation``: ``"exact"`` or ``"limited-memory"``.
+    """
+
+    def __init__(
+        self,
+        members: Sequence[Member],
+        requirement: Requirement,
+        kinds: tuple[str, ...],
+        blocks: BlockCache,
+        hessian: str = "exact",
+    ) -> None:
         self.kinds = kinds
-        req = planner.req
-        self.phases = phase_specs(kinds, planner.members[0].env, req.rest_s)
+        req = requirement
+        self.phases = phase_specs(kinds, members[0].env, req.rest_s)
         self.n_dwell = len(kinds) + 1
         dwell_scaled = ca.MX.sym("dwell_scaled", self.n_dwell)
         dwell = DWELL_SCALE_S * dwell_scaled
-        members = [
-            _MemberEquations(planner, k, mem, kinds, dwell) for k, mem in enumerate(planner.members)
-        ]
-        res = [r for me in members for r in me.res]
-        ineq = [me.log_lr - math.log10(req.log_reduction) - me.shift[0] for me in members]
+        eqs = [_MemberEquations(blocks, req, k, mem, kinds, dwell) for k, mem in enumerate(members)]
+        res = [r for me in eqs for r in me.res]
+        ineq = [me.log_lr - math.log10(req.log_reduction) - me.shift[0] for me in eqs]
         if req.min_temp_c is not None:
-            ineq += [(me.t_removal - req.min_temp_c - me.shift[1]) / 10.0 for me in members]
+            ineq += [(me.t_removal - req.min_temp_c - me.shift[1]) / 10.0 for me in eqs]
         g = ca.vertcat(*res, *ineq)
         self.n_res = int(ca.vertcat(*res).shape[0])
-        self.layouts = [me.layout for me in members]
-        w = ca.vertcat(dwell_scaled, *[v for me in members for v in me.w])
-        p = ca.vertcat(*[ca.vertcat(me.x0, me.scale, me.mod) for me in members])
+        self.layouts = [me.layout for me in eqs]
+        #: Where each scenario's element lengths (s) sit in the primal vector.
+        self.time_blocks: list[slice] = []
+        at = self.n_dwell
+        for lay in self.layouts:
+            self.time_blocks.append(slice(at, at + lay.n_h))
+            at += lay.n_h + lay.n_lr + lay.n_z
+        w = ca.vertcat(dwell_scaled, *[v for me in eqs for v in me.w])
+        p = ca.vertcat(*[ca.vertcat(me.x0, me.scale, me.mod) for me in eqs])
         #: Per scenario, the smallest log reduction over the points and the coldest point at
         #: removal on the reduced model (uncorrected), as functions of the solution.
         self.outcome_of = ca.Function(
             "outcome_of",
             [w, p],
             [
-                ca.vertcat(*[ca.mmin(10.0**me.log_lr) for me in members]),
-                ca.vertcat(*[ca.mmin(me.t_removal) for me in members]),
+                ca.vertcat(*[ca.mmin(10.0**me.log_lr) for me in eqs]),
+                ca.vertcat(*[ca.mmin(me.t_removal) for me in eqs]),
             ],
         )
         nlp = {"x": w, "p": p, "f": ca.sum1(dwell_scaled), "g": g}
-        self.solver = ca.nlpsol("plan", "ipopt", nlp, _options(planner.hessian))
-        self._nlp, self._hessian = nlp, planner.hessian
+        self.solver = ca.nlpsol("plan", "ipopt", nlp, _options(hessian))
+        self._nlp, self._hessian = nlp, hessian
         self.n_g = int(g.shape[0])
 
     @property
@@ -184,10 +215,18 @@ class Transcription:
         Built on first use; IPOPT's warm-start initialisation, small initial barrier.
         """
         if not hasattr(self, "_warm"):
-            opts = {**_options(self._hessian), **WARM_OPTIONS}
+            opts = {**_options(self._hessian), **WARM_OPTIONS, "ipopt.max_iter": WARM_MAX_ITER}
             self._warm = ca.nlpsol("plan_warm", "ipopt", self._nlp, opts)
         return self._warm
 
+
+#: Iteration cap of a warm start: a start near the optimum needs a handful; one that has
+#: not converged by then is abandoned for the cold starts.
+WARM_MAX_ITER = 25
+
+#: Iteration cap of a cold start (bounds the cost of a failure; iterations, not wall time,
+#: so that results do not depend on machine speed).
+COLD_MAX_ITER = 300
 
 #: IPOPT options of a warm start (primal and dual point of a nearby solved problem).
 WARM_OPTIONS: dict[str, object] = {
@@ -213,7 +252,7 @@ def _options(hessian: str) -> dict[str, object]:
         "ipopt.acceptable_tol": 1e-5,
         "ipopt.acceptable_constr_viol_tol": 1e-8,
         "ipopt.acceptable_iter": 5,
-        "ipopt.max_iter": 300,
+        "ipopt.max_iter": COLD_MAX_ITER,
         "ipopt.max_wall_time": SOLVE_BUDGET_S,
         "ipopt.mu_strategy": "adaptive",
         "ipopt.mumps_pivot_order": 0,

@@ -1,25 +1,26 @@
 """Minimum-time cook planning on the reduced model with CasADi and IPOPT.
 
 For a fixed event sequence (say two flips then done) the decision variables are the dwell
-times between events. Each dwell is integrated implicitly (BDF, CVODES) on the spectral
-model with the dwell as a parameter, so IPOPT gets exact sensitivities. Constraints at
-removal: the log reduction at every node reaches the target, and, if asked, every node is
-at or above the minimum temperature; consecutive events are at least the appliance's minimum
-gap apart.
+times between events; each phase is transcribed by Radau collocation
+(:mod:`obvert.plan.collocation`, :mod:`obvert.plan._nlp`). Constraints at removal: the log
+reduction at every lethality point reaches the target, and, if asked, every point is at or
+above the minimum temperature; consecutive events are at least the appliance's minimum gap
+apart. :class:`Requirement`, :class:`Member` and :class:`PlanError` live in
+:mod:`obvert.plan.problem` and are re-exported here.
 """
 
 from __future__ import annotations
 
 from collections.abc import Sequence
-from dataclasses import dataclass
+from dataclasses import dataclass, field
 
 import casadi as ca
 import numpy as np
 
-from obvert.food.criteria import Requirement
-from obvert.plan._nlp import DWELL_SCALE_S, PlanError, Transcription, phase_specs
-from obvert.plan.collocation import Grid, PhaseBlock
+from obvert.plan._nlp import DWELL_SCALE_S, Transcription, phase_specs
+from obvert.plan.collocation import BlockCache, Grid, PhaseBlock
 from obvert.plan.modifier import Modifier
+from obvert.plan.problem import Member, PlanError, Requirement, Solution, predict
 from obvert.plan.schedule import Event, Schedule, Surroundings
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
@@ -50,6 +51,11 @@ class PlanResult:
         Per scenario, the target correction at the solution (:class:`Modifier` shift):
         (log10 of the factor on the log reduction, kelvin on the removal temperature);
         zeros when uncorrected.
+    iterations : int
+        IPOPT iterations of the start that produced this result.
+    solution : Solution or None
+        The primal-dual point, to start a neighbouring node from (``neighbours`` of
+        :meth:`Planner.solve`); picklable.
     """
 
     schedule: Schedule
@@ -60,25 +66,11 @@ class PlanResult:
     member_log_reduction: tuple[float, ...] = ()
     member_temp_c: tuple[float, ...] = ()
     bias: tuple[tuple[float, float], ...] = ()
+    iterations: int = 0
+    solution: Solution | None = field(default=None, compare=False, repr=False)
 
 
-@dataclass(frozen=True)
-class Member:
-    """One scenario a plan must satisfy: a slab model on an appliance, start offset.
-
-    Attributes
-    ----------
-    model : SpectralModel
-        Reduced model of the slab (its thickness and food properties).
-    env : Surroundings
-        Plate, air and platen conditions.
-    start_offset_k : float
-        Added to the requested start temperature, K (e.g. minus the measurement error).
-    """
-
-    model: SpectralModel
-    env: Surroundings
-    start_offset_k: float = 0.0
+__all__ = ["Member", "PlanError", "PlanResult", "Planner", "Requirement", "Solution"]
 
 
 class Planner:
@@ -101,6 +93,8 @@ class Planner:
         Collocation elements per phase.
     extra : sequence of Member
         Further scenarios the same schedule must satisfy (same flip air time).
+    evaluation : str
+        How the collocation equations are evaluated (:data:`obvert.plan.collocation.EVALUATIONS`).
     """
 
     def __init__(
@@ -111,6 +105,7 @@ class Planner:
         min_gap_s: float,
         grid: Grid | None = None,
         extra: tuple[Member, ...] = (),
+        evaluation: str = "mx",
     ) -> None:
         self.model = model
         self.env = env
@@ -122,7 +117,7 @@ class Planner:
         self.min_gap_s = float(min_gap_s)
         self.grid = grid or Grid()
         self.hessian = "exact"
-        self._blocks: dict[tuple[int, FaceBC, FaceBC], PhaseBlock] = {}
+        self.blocks = BlockCache([mem.model for mem in self.members], self.grid, evaluation)
         self._traj: dict[tuple[int, FaceBC, FaceBC], ca.Function] = {}
         self._nlps: dict[tuple[str, ...], Transcription] = {}
         #: Every solution by (sequence, start, its dwells in s): NLP primal point, LR scales,
@@ -131,10 +126,7 @@ class Planner:
 
     def block(self, k: int, face0: FaceBC, face1: FaceBC) -> PhaseBlock:
         """Collocation block of scenario ``k`` for a pair of face conditions (cached)."""
-        key = (k, face0, face1)
-        if key not in self._blocks:
-            self._blocks[key] = PhaseBlock(self.members[k].model, face0, face1, self.grid)
-        return self._blocks[key]
+        return self.blocks.block(k, face0, face1)
 
     def _trajectory(self, k: int, face0: FaceBC, face1: FaceBC) -> ca.Function:
         key = (k, face0, face1)
@@ -234,6 +226,7 @@ class Planner:
         seeds: tuple[np.ndarray, ...] = (),
         modifier: Modifier | None = None,
         warm: bool = False,
+        neighbours: Sequence[Solution] = (),
     ) -> PlanResult:
         """Minimum-time schedule for the event sequence ``kinds`` (``done`` implied).
 
@@ -247,13 +240,38 @@ class Planner:
         kelvin, the shift being affine in the dwells. With ``warm`` the seeds
         are taken to be near the optimum: IPOPT starts from them alone, and from the
         equal-dwell guess only if they all fail.
+
+        ``neighbours`` (continuation): solutions (:attr:`PlanResult.solution`) of
+        neighbouring nodes with the same sequence, scenarios and grid, e.g. the previous
+        start temperature of the same thickness. IPOPT then starts from their primal-dual
+        point, predicted by :func:`obvert.plan.problem.predict` (dwells scaled with the
+        thickness squared, extrapolated linearly along the start temperature from two
+        neighbours), with at most :data:`~obvert.plan._nlp.WARM_MAX_ITER` iterations. If
+        that fails (e.g. across the freezing point), the predicted dwells are a seed as with
+        ``warm`` (states re-simulated, a cold IPOPT start), and the cold starts above run only
+        if that fails too.
         """
         if kinds not in self._nlps:
-            self._nlps[kinds] = Transcription(self, kinds)
+            self._nlps[kinds] = Transcription(
+                self.members, self.req, kinds, self.blocks, self.hessian
+            )
         tr = self._nlps[kinds]
         b = self._modifier(kinds, modifier)
         lb = self.lower_bounds(kinds)
         errors: list[str] = []
+        if neighbours:
+            pred = predict(
+                neighbours, kinds, self.model.thickness_m, start_temp_c, tr.n_dwell, tr.time_blocks
+            )
+            d0 = np.clip(pred.primal[: tr.n_dwell] * DWELL_SCALE_S, lb, None)
+            ub = np.full(lb.size, max(1.5 * float(d0.sum()), lb.max() + 1.0))
+            try:
+                return self._solve_from(tr, start_temp_c, d0, lb, ub, b, point=pred)
+            except PlanError as exc:
+                errors.append(f"start from {len(neighbours)} neighbour(s): {exc}")
+            # the predicted dwells alone (states re-simulated), before the full cold starts
+            seeds = (d0, *seeds)
+            warm = True
         if warm and seeds:
             # a near-optimal seed (a correction round): skip the cold start unless it fails
             ub = np.full(lb.size, max(1.5 * float(np.sum(seeds[0])), lb.max() + 1.0))
@@ -298,20 +316,21 @@ class Planner:
         lb: np.ndarray,
         ub: np.ndarray,
         mod: Modifier,
+        point: Solution | None = None,
     ) -> PlanResult:
         kinds = tr.kinds
         bias0 = mod.shift(start)
         frac = self.grid.fractions()
         # a start at an earlier solution of this sequence and start temperature: IPOPT then
         # starts from that whole primal-dual point (states included), not a re-simulation
-        last = self._solutions.get((kinds, start_temp_c, tuple(float(v) for v in start)))
+        last = point or self._solutions.get((kinds, start_temp_c, tuple(float(v) for v in start)))
         warm = last is not None
         w0, lbx, ubx = [start / DWELL_SCALE_S], [lb / DWELL_SCALE_S], [ub / DWELL_SCALE_S]
         p, scales = [], []
         for k, (mem, lay) in enumerate(zip(self.members, tr.layouts, strict=True)):
             t0 = start_temp_c + mem.start_offset_k
             if warm:
-                scale = last[1][k]
+                scale = last.lr_scale[k]
             else:
                 stages, lr_after, _, _ = self._simulate(k, kinds, start_temp_c, start)
                 scale = np.maximum(lr_after[-1], self.req.log_reduction * 10.0 ** bias0[k, 0])
@@ -331,8 +350,8 @@ class Planner:
         }
         if warm:
             solver = tr.warm_solver
-            x0 = np.clip(last[0], args["lbx"], args["ubx"])
-            sol = solver(x0=x0, lam_x0=last[2], lam_g0=last[3], **args)
+            x0 = np.clip(last.primal, args["lbx"], args["ubx"])
+            sol = solver(x0=x0, lam_x0=last.lam_x, lam_g0=last.lam_g, **args)
         else:
             solver = tr.solver
             sol = solver(x0=np.concatenate(w0), **args)
@@ -348,7 +367,16 @@ class Planner:
         dwell = w[: lb.size] * DWELL_SCALE_S
         duals = (np.array(sol["lam_x"]).ravel(), np.array(sol["lam_g"]).ravel())
         key = (kinds, start_temp_c, tuple(float(v) for v in dwell))
-        self._solutions[key] = (w.copy(), scales, *duals)
+        solution = Solution(
+            kinds,
+            self.model.thickness_m,
+            float(start_temp_c),
+            dwell.copy(),
+            w.copy(),
+            np.array(scales, dtype=float),
+            *duals,
+        )
+        self._solutions[key] = solution
         lr, t_rem = (np.array(v).ravel() for v in tr.outcome_of(w, np.concatenate(p)))
         schedule = self.schedule_of(kinds, dwell)
         return PlanResult(
@@ -360,6 +388,8 @@ class Planner:
             tuple(float(v) for v in lr),
             tuple(float(v) for v in t_rem),
             tuple((float(a), float(b)) for a, b in mod.shift(dwell)),
+            int(solver.stats()["iter_count"]),
+            solution,
         )
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:
