@@ -16,7 +16,7 @@ from obvert.certify.node import CertificationError, ErrorBudget, certify
 from obvert.firmware.contract import to_ticks
 from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
-from obvert.plan.ocp import Member, PlanError, Planner, PlanResult
+from obvert.plan.ocp import Member, PlanError, Planner, PlanResult, Solution
 from obvert.plan.quantize import quantize
 from obvert.problem.model import Case, Problem
 from obvert.spec.model import Spec
@@ -126,9 +126,13 @@ def _row(problem: Problem, i: int) -> list[Node]:
         nominal_planner = Planner(problem.reduced_model(nom, thick), nom.env, req, gap, grid)
     limits = BoundPlanners(members[0].model, members[0].env, req, grid)
     out = []
+    # continuation along the row: each node starts from the solutions of the nodes before it
+    # (same sequence), always in the same order, so the result does not depend on where the
+    # row ran
+    history: dict[tuple[str, ...], list[Solution]] = {}
     for j, t0 in enumerate(spec.grid.start_temp_c):
         cases = list(problem.cases_at(thick, t0))
-        node = _node(problem, planner, cases, i, j, (thick, t0))
+        node = _node(problem, planner, cases, i, j, (thick, t0), history)
         t_worst = cases[0].start_temp_c
         node = replace(node, bounds_s=tuple(sorted(limits.solve(t_worst).items())))
         if nominal_planner is not None and nom is not None:
@@ -155,6 +159,35 @@ def _nominal(problem: Problem, planner: Planner, node: Node, t0: float, case: Ca
     return calibrate(planner, kinds, t0, [case], res, rounds).result.cook_time_s
 
 
+def _solve(
+    planner: Planner,
+    seq: tuple[str, ...],
+    t_plan: float,
+    seeds: tuple[np.ndarray, ...],
+    neighbours: list[Solution],
+    fewer: PlanResult | None,
+) -> PlanResult:
+    """One sequence at one node: from the neighbours' solutions first (continuation).
+
+    The cold starts (equal dwells, and the optimum with one flip fewer, its last dwell split)
+    run only when the continuation fails, or when its optimum is no faster than one flip fewer
+    (a local optimum the other starts may leave).
+    """
+    if not neighbours:
+        return planner.solve(seq, t_plan, seeds)
+    try:
+        res = planner.solve(seq, t_plan, neighbours=neighbours[-2:])
+    except PlanError:
+        return planner.solve(seq, t_plan, seeds)
+    if fewer is not None and res.cook_time_s >= fewer.cook_time_s - 1e-6:
+        try:
+            other = planner.solve(seq, t_plan, seeds)
+        except PlanError:
+            return res
+        return other if other.cook_time_s < res.cook_time_s - 1e-6 else res
+    return res
+
+
 def _node(
     problem: Problem,
     planner: Planner,
@@ -162,25 +195,34 @@ def _node(
     i: int,
     j: int,
     at: tuple[float, float],
+    history: dict[tuple[str, ...], list[Solution]],
 ) -> Node:
     cell = f"node (thickness {at[0] * 1e3:g} mm, start {at[1]:g} degC)"
     t_plan = cases[0].start_temp_c
     cands: list[Candidate] = []
     solved: dict[tuple[str, ...], PlanResult] = {}
-    prev: tuple[float, ...] | None = None
+    prev: PlanResult | None = None
     spec = problem.spec
     for seq in problem.sequences:
         flips = seq.count("flip")
         closing = "platen_close" in seq
-        seeds = () if prev is None or closing else (_split_last(prev, spec.appliance.flip_air_s),)
+        seeds = (
+            ()
+            if prev is None or closing
+            else (_split_last(prev.dwell_s, spec.appliance.flip_air_s),)
+        )
         try:
-            res = planner.solve(seq, t_plan, seeds)
+            res = _solve(
+                planner, seq, t_plan, seeds, history.get(seq, []), None if closing else prev
+            )
         except PlanError as exc:
             cands.append(Candidate(flips, None, str(exc), seq))
             prev = None if not closing else prev
             continue
         if not closing:
-            prev = res.dwell_s
+            prev = res
+        if res.solution is not None:
+            history.setdefault(seq, []).append(res.solution)
         solved[seq] = res
         cands.append(Candidate(flips, res.cook_time_s, res.solver_status, seq))
     if not solved:
