@@ -12,7 +12,7 @@ from concurrent.futures import Executor
 from importlib import resources
 from typing import Any
 
-from obvert.emitter import EmitError, TargetProfile, load_target
+from obvert.emitter import EmitError, TargetProfile, load_target, table_bytes
 from obvert.emitter import emit as _emit_one
 from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
 from obvert.table import CookTable, Progress, manifest
@@ -118,6 +118,50 @@ def output_names(spec: Spec, targets: Targets | None = None) -> dict[str, str]:
                 )
             owner[name] = prof
     return {name: prof.name for name, prof in owner.items()}
+
+
+def budget_check(spec: Spec, targets: Targets | None = None) -> list[str]:
+    """Check a spec's grid against the targets' byte budgets before any work.
+
+    Parameters
+    ----------
+    spec : Spec
+        The spec to be built.
+    targets : TargetProfile, str or sequence of them, optional
+        Default: the spec's ``outputs.targets``.
+
+    Returns
+    -------
+    list of str
+        Warnings: targets whose budget the table may exceed with its longest schedules.
+
+    Raises
+    ------
+    EmitError
+        The table cannot fit a target's budget even with the shortest schedules.
+    """
+    n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
+    a = spec.appliance
+    fewest = 1 if a.kind != "clamshell" else 3  # done; or close, open and done
+    most = a.max_flips + (1 if a.kind == "flipping_griddle" else 3)
+    warnings = []
+    for prof in _profiles(targets, spec):
+        budget = prof.flash_budget_bytes
+        if budget is None:
+            continue
+        low = table_bytes(prof, n_x, n_t, fewest)
+        if low > budget:
+            raise EmitError(
+                f"grid: {n_x} x {n_t} nodes need at least {low} bytes on target {prof.name!r}, "
+                f"whose flash_budget_bytes = {budget}: use fewer grid nodes or a larger budget"
+            )
+        high = table_bytes(prof, n_x, n_t, most)
+        if high > budget:
+            warnings.append(
+                f"target {prof.name!r}: the table may need up to {high} bytes against "
+                f"flash_budget_bytes = {budget} (checked again after the build)"
+            )
+    return warnings
 
 
 def compile_table(

@@ -223,7 +223,7 @@ def build_cmd(
     quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
-    from obvert.api import compile_table, demo_spec, emit
+    from obvert.api import budget_check, compile_table, demo_spec, emit
     from obvert.emitter import EmitError, ProfileError
     from obvert.firmware import ManifestError
     from obvert.problem.model import sequences
@@ -237,9 +237,12 @@ def build_cmd(
         problem = _writable_folder(out_dir)
         if problem:
             raise SpecError("--out", str(out_dir), f"a folder that can be written ({problem})")
+        warnings = budget_check(spec, profiles)
     except (SpecError, ProfileError, EmitError) as exc:
         click.echo(f"error: {exc}; nothing was built", err=True)
         sys.exit(2)
+    for w in warnings:
+        click.echo(f"warning: {w}", err=True)
     if not quiet:
         n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
         n_seq = len(sequences(spec))

@@ -5,6 +5,7 @@ from ``load_target("c99")`` (built-ins in ``targets/``) or a TOML path. The mani
 checked by the firmware contract first (:func:`obvert.firmware.check_manifest`).
 """
 
+from obvert.emitter.context import table_bytes
 from obvert.emitter.errors import EmitError
 from obvert.emitter.profile import (
     OutputSpec,
@@ -23,4 +24,5 @@ __all__ = [
     "emit",
     "load_target",
     "loads_target",
+    "table_bytes",
 ]

@@ -153,6 +153,28 @@ def _data_bytes(n_x: int, n_t: int, n_nodes: int, width: int, time_type: str) ->
     return axes + n_nodes * per_node
 
 
+def table_bytes(target: TargetProfile, n_x: int, n_t: int, max_events: int) -> int:
+    """Const data a table of ``n_x`` by ``n_t`` nodes needs on ``target``, bytes.
+
+    Parameters
+    ----------
+    target : TargetProfile
+        The target.
+    n_x, n_t : int
+        Thickness and start-temperature nodes.
+    max_events : int
+        Events of the longest node, done included.
+
+    Returns
+    -------
+    int
+        The sum the generated static asserts check against ``flash_budget_bytes``.
+    """
+    n_cells = (n_x - 1) * (n_t - 1) if target.lookup == "bilinear" else 0
+    data = _data_bytes(n_x, n_t, n_x * n_t, max_events, target.time_type)
+    return data + cell_bytes(n_cells, target.time_type)
+
+
 def _wrap(text: str) -> list[str]:
     return textwrap.wrap(" ".join(str(text).split()), _WRAP) or [""]
 
