@@ -26,7 +26,11 @@ else:  # pragma: no cover
 Targets = TargetProfile | str | Sequence[TargetProfile | str]
 
 #: Built-in demo specs (an invented kitchen and its products), by name.
-DEMOS = {"griddle": "griddle_patty.toml", "clamshell": "clamshell_patty.toml"}
+DEMOS = {
+    "griddle": "griddle_patty.toml",
+    "griddle_line": "griddle_line.toml",
+    "clamshell": "clamshell_patty.toml",
+}
 
 
 def demo_text(name: str) -> str:

@@ -21,7 +21,7 @@ import click
 
 from obvert.about import CAUTION, __version__
 
-DEMOS = ("clamshell", "griddle")
+DEMOS = ("clamshell", "griddle", "griddle_line")
 
 
 def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
