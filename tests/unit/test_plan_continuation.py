@@ -71,3 +71,21 @@ def test_start_from_a_neighbour_reaches_the_cold_optimum() -> None:
     # IPOPT's tolerance (1e-7 on the scaled problem) bounds the spread of the optimum
     assert warm.cook_time_s == pytest.approx(cold.cook_time_s, rel=1e-6)
     assert np.allclose(warm.dwell_s, cold.dwell_s, rtol=1e-5)
+
+
+def test_start_from_a_thinner_neighbour_reaches_the_cold_optimum() -> None:
+    table = composition_table(Composition(water=0.68, protein=0.19, fat=0.11, ash=0.02), "lean")
+    env = Surroundings(FaceBC(450.0, 190.0), FaceBC(12.0, 30.0, 0.9), None, 1.5)
+    req = Requirement(7.0, 71.0)
+
+    def planner(thick_m: float) -> Planner:
+        model = SpectralModel(
+            table, thick_m, LethalityModel(103.6, 60.0, 5.586), SpectralSettings(8)
+        )
+        return Planner(model, env, req, 10.0, Grid(4))
+
+    nb = planner(0.006).solve(("flip",), 4.0, (np.array([40.0, 30.0]),))
+    cold = planner(0.008).solve(("flip",), 4.0, (np.array([70.0, 55.0]),))
+    warm = planner(0.008).solve(("flip",), 4.0, neighbours=(nb.solution,))
+    assert warm.iterations < cold.iterations
+    assert warm.cook_time_s == pytest.approx(cold.cook_time_s, rel=1e-6)
