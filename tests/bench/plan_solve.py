@@ -31,14 +31,11 @@ from obvert.spec import load_spec
 
 
 def _planner(spec, thick_m: float, evaluation: str = "mx"):
-    from obvert.table import build as sweep  # the sweep's spec helpers (read only)
-    from obvert.table.scenarios import scenarios
+    from obvert.problem import problem_of
 
-    env, req = sweep.surroundings(spec), sweep.requirement_of(spec)
-    scens = scenarios(spec, env)
-    members = [
-        Member(sweep._model(spec, s.table, thick_m + s.thickness_offset_m), s.env) for s in scens
-    ]
+    problem = problem_of(spec)
+    req, scens = problem.requirement, problem.scenarios
+    members = [Member(problem.reduced_model(s, thick_m), s.env) for s in scens]
     grid = Grid(spec.planning.elements_per_phase)
     planner = Planner(
         members[0].model,
