@@ -152,7 +152,7 @@ def _nominal(problem: Problem, planner: Planner, node: Node, t0: float, case: Ca
     """
     kinds = tuple(e.kind for e in node.schedule.events[:-1] if e.kind != "platen_open")
     try:  # the robust plan also meets the nominal target: a start near the nominal optimum
-        res = planner.solve(kinds, t0, (np.array(node.planned_dwell_s),))
+        res = planner.solve(kinds, t0, (np.array(node.planned_dwell_s),), warm=True)
     except PlanError:
         return None
     rounds = problem.spec.planning.calibration_rounds
