@@ -280,7 +280,9 @@ class Planner:
                 return best
         guess = self.feasible_guess(kinds, start_temp_c, b)
         ub = np.full(lb.size, max(guess.sum(), lb.max() + 1.0))
-        best = self._best(tr, start_temp_c, (guess, *seeds), lb, ub, b, errors)
+        # seeds already tried (and failed) as warm starts are not tried again
+        starts = (guess,) if warm and seeds else (guess, *seeds)
+        best = self._best(tr, start_temp_c, starts, lb, ub, b, errors)
         if best is None:
             raise PlanError("; ".join(errors))
         return best

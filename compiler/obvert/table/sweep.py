@@ -167,18 +167,15 @@ def _solve(
     neighbours: list[Solution],
     fewer: PlanResult | None,
 ) -> PlanResult:
-    """One sequence at one node: from the neighbours' solutions first (continuation).
+    """One sequence at one node: one start first, the others only when they may pay.
 
-    The cold starts (equal dwells, and the optimum with one flip fewer, its last dwell split)
-    run only when the continuation fails, or when its optimum is no faster than one flip fewer
-    (a local optimum the other starts may leave).
+    The first start is the neighbours' solutions (continuation), or, at a row's first node,
+    the optimum with one flip fewer with its last dwell split. The cold starts (equal dwells
+    and that seed) run only when the first fails, or when its optimum is no faster than one
+    flip fewer (a local optimum the other starts may leave).
     """
-    if not neighbours:
-        return planner.solve(seq, t_plan, seeds)
-    try:
-        res = planner.solve(seq, t_plan, neighbours=neighbours[-2:])
-    except PlanError:
-        return planner.solve(seq, t_plan, seeds)
+    # the planner falls back by itself: neighbours, then the seeds, then equal dwells
+    res = planner.solve(seq, t_plan, seeds, warm=True, neighbours=neighbours[-2:])
     if fewer is not None and res.cook_time_s >= fewer.cook_time_s - 1e-6:
         try:
             other = planner.solve(seq, t_plan, seeds)
