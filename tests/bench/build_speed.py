@@ -33,12 +33,12 @@ from obvert.problem import problem_of
 from obvert.table import ProgressEvent
 
 
-def _spec(quick: bool) -> obvert.Spec:
+def _spec(quick: bool, demo: str) -> obvert.Spec:
     if quick:
         return obvert.demo_spec(
-            "griddle_line", thickness=["6 mm", "12 mm"], start_temperature=["-18 degC", "4 degC"]
+            demo, thickness=["6 mm", "12 mm"], start_temperature=["-18 degC", "4 degC"]
         )
-    return obvert.demo_spec("griddle_line")
+    return obvert.demo_spec(demo)
 
 
 def build_figures(spec: obvert.Spec, jobs: int) -> None:
@@ -143,8 +143,11 @@ def main() -> None:
     ap.add_argument("--quick", action="store_true", help="a 2 x 2 corner of the demo")
     ap.add_argument("--jobs", type=int, default=2)
     ap.add_argument("--skip-brute-force", action="store_true")
+    ap.add_argument(
+        "--demo", default="griddle_line", help="built-in demo (griddle: 3 x 3, up to 2 flips)"
+    )
     args = ap.parse_args()
-    spec = _spec(args.quick)
+    spec = _spec(args.quick, args.demo)
     build_figures(spec, args.jobs)
     if not args.skip_brute_force:
         optimum_figures(spec)

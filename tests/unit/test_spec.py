@@ -109,3 +109,19 @@ def test_planning_calibration_rounds() -> None:
     assert loads_spec(text.format(0)).planning.calibration_rounds == 0
     with pytest.raises(SpecError, match=r"planning\.calibration_rounds.*9.*0 to 8"):
         loads_spec(text.format(9))
+
+
+def test_flip_may_take_no_time_in_the_air() -> None:
+    """A turning arm that flips on the plate: flip_air_time = "0 s" is a valid appliance."""
+    text = _demo().replace('flip_air_time = "1.5 s"', 'flip_air_time = "0 s"')
+    assert loads_spec(text).appliance.flip_air_s == 0.0
+
+
+def test_any_positive_log_reduction_target() -> None:
+    text = _demo().replace(
+        'organism = "salmonella_beef_7log"',
+        'organism = "salmonella_beef_7log"\nlog_reduction = 0.3',
+    )
+    assert loads_spec(text).safety.log_reduction == 0.3
+    with pytest.raises(SpecError, match="safety.log_reduction"):
+        loads_spec(text.replace("log_reduction = 0.3", "log_reduction = 0"))

@@ -70,6 +70,9 @@ class PlanResult:
     solution: Solution | None = field(default=None, compare=False, repr=False)
 
 
+#: IPOPT return statuses of a solve stopped by an interrupt (Ctrl-C in this process).
+INTERRUPTED = ("User_Requested_Stop",)
+
 __all__ = ["Member", "PlanError", "PlanResult", "Planner", "Requirement", "Solution"]
 
 
@@ -358,6 +361,9 @@ class Planner:
             solver = tr.solver
             sol = solver(x0=np.concatenate(w0), **args)
         status = str(solver.stats()["return_status"])
+        if status in INTERRUPTED:
+            # Ctrl-C reached the solver, which stopped and returned: never a failed candidate
+            raise KeyboardInterrupt(f"sequence {kinds}: the solve was interrupted ({status})")
         w = np.array(sol["x"]).ravel()
         g = np.array(sol["g"]).ravel()
         viol = max(np.abs(g[: tr.n_res]).max(), -min(g[tr.n_res :].min(), 0.0))
