@@ -128,12 +128,17 @@ def optimum_figures(spec: obvert.Spec) -> None:
         table = obvert.compile_table(s, ["json"])
         plan_s = time.perf_counter() - t0
         node = table.nodes[0]
+        # the plan's flip times with done found as the brute force finds it (no error
+        # budget), so that the gap measures the plan, not the safety margin
+        plan_flips = tuple(e.at_s for e in node.schedule.events if e.kind == "flip")
+        plan_done = _earliest_done(cases, plan_flips, tick, node.schedule.done_s - 5.0)
         done, at, brute_s = brute_force(cases, flips, tick, 1.2 * node.schedule.done_s)
-        gap = node.schedule.done_s / done - 1.0
+        gap = plan_done / done - 1.0
         print(
-            f"10 mm from 4 degC, up to {flips} flip(s): plan {node.schedule.done_s:.1f} s "
-            f"({node.schedule.flips} flips, {plan_s:.1f} s to build); brute force {done:.1f} s "
-            f"(flips at {at}, {brute_s:.0f} s); gap {100 * gap:+.3f} %; brute force / plan time "
+            f"10 mm from 4 degC, up to {flips} flip(s): table {node.schedule.done_s:.1f} s with "
+            f"its error budget, plan's flips alone {plan_done:.1f} s ({node.schedule.flips} "
+            f"flips, {plan_s:.1f} s to build); brute force {done:.1f} s (flips at {at}, "
+            f"{brute_s:.0f} s); gap {100 * gap:+.3f} %; brute force / plan time "
             f"{brute_s / plan_s:.0f}x"
         )
 
