@@ -5,8 +5,8 @@
  * Generated file: do not edit; rebuild it from the spec instead.
  * Target profile: c99_fixed_bilinear (C99 table (.c and .h), integer-only
  * bilinear lookup on thickness in um and start temperature in 0.01 degC)
- * Spec sha256:     f2d5cbe3c53345e2e6f023472cebcb0473733268da4281fc0230f2d7b38ada63
- * Manifest sha256: 00efe5faaeea803bdfff674d5abb93583c01592293e420d16565362d73483ced
+ * Spec sha256:     b1b16317ba87f0beea3496ae83fbb1b85fa48cb2eeb232ad743f4b90763c3e56
+ * Manifest sha256: 9feb9e729de9e877d9d2ce82002a16d58199f1340b331f16297d329d31596cfe
  *
  * FOOD-SAFETY CAUTION:
  * Engineering aid only. This cook program must be validated by temperature
@@ -67,7 +67,7 @@
 #if !defined(TEST_PATTY_FORMAT_VERSION) || TEST_PATTY_FORMAT_VERSION != 2
 #error "test_patty: the header has another table format version than this file"
 #endif
-#if !defined(TEST_PATTY_TABLE_ID) || TEST_PATTY_TABLE_ID != 0x00EFE5FAUL
+#if !defined(TEST_PATTY_TABLE_ID) || TEST_PATTY_TABLE_ID != 0x9FEB9E72UL
 #error "test_patty: the header comes from another build of the table than this file"
 #endif
 
@@ -99,18 +99,18 @@ const uint8_t test_patty_event_kind[][TEST_PATTY_MAX_EVENTS] = {
 
 /* Event times per node, ticks; rows are padded with the DONE time. */
 const uint32_t test_patty_event_ticks[][TEST_PATTY_MAX_EVENTS] = {
-    { 276u, 679u, 876u }, /* node 0 */
+    { 276u, 679u, 877u }, /* node 0 */
     { 130u, 349u, 522u }, /* node 1 */
-    { 544u, 1402u, 1867u }, /* node 2 */
-    { 243u, 697u, 1098u }, /* node 3 */
+    { 544u, 1402u, 1868u }, /* node 2 */
+    { 243u, 697u, 1099u }, /* node 3 */
 };
 
 /* Certified margin over the target log reduction per node, 0.001 log10, rounded down. */
 const int32_t test_patty_margin_mlog[] = {
-    49, /* node 0 */
+    418, /* node 0 */
     295, /* node 1 */
-    78, /* node 2 */
-    29, /* node 3 */
+    257, /* node 2 */
+    207, /* node 3 */
 };
 
 /* Rule applied per cell: TEST_PATTY_RULE_BILINEAR where the manifest certifies the bilinear rule
@@ -126,7 +126,7 @@ const uint32_t test_patty_cell_pad_ticks[] = {
 
 /* Certified smallest margin over the cell under this rule, 0.001 log10, rounded down. */
 const int32_t test_patty_cell_margin_mlog[] = {
-    78, /* cell 0 */
+    257, /* cell 0 */
 };
 
 /* Compile-time checks (C99: a negative array size stops the build). */
