@@ -18,9 +18,9 @@ def _spec() -> obvert.Spec:
 def test_local_workers_and_dask_cluster_give_the_same_bytes() -> None:
     distributed = pytest.importorskip("distributed")
     spec = _spec()
-    here = obvert.emit(obvert.compile_table(spec, TARGETS, jobs=1), TARGETS)
-    local = obvert.emit(obvert.compile_table(spec, TARGETS, jobs=2), TARGETS)
-    assert local == here
+    # local worker processes (the rows in parallel) against a Dask cluster; that a row's result
+    # does not depend on the process it ran in is what both show
+    here = obvert.emit(obvert.compile_table(spec, TARGETS, jobs=2), TARGETS)
     with (
         distributed.LocalCluster(
             n_workers=2, threads_per_worker=1, processes=True, dashboard_address=None
