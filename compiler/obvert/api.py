@@ -213,7 +213,7 @@ def compile_table(
     Examples
     --------
     >>> import obvert
-    >>> spec = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
+    >>> spec = obvert.demo_spec("clamshell", thickness=["9 mm"], start_temperature=["4 degC"])
     >>> table = obvert.compile_table(spec, ["c99"])
     >>> [round(node.margin_log, 3) >= 0.0 for node in table.nodes]
     [True]
@@ -247,10 +247,10 @@ def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -
     Examples
     --------
     >>> import obvert
-    >>> spec = obvert.demo_spec("griddle", thickness=["10 mm"], start_temperature=["4 degC"])
+    >>> spec = obvert.demo_spec("clamshell", thickness=["9 mm"], start_temperature=["4 degC"])
     >>> files = obvert.emit(obvert.compile_table(spec, ["c99", "json"]), ["c99", "json"])
     >>> sorted(files)
-    ['brinecliff_patty.c', 'brinecliff_patty.h', 'brinecliff_patty.json']
+    ['brinecliff_press.c', 'brinecliff_press.h', 'brinecliff_press.json']
     """
     m = manifest(table) if isinstance(table, CookTable) else dict(table)
     spec = table.spec if isinstance(table, CookTable) else None

@@ -61,6 +61,10 @@ def _stop_local_workers(pool: ProcessPoolExecutor) -> None:
         child.join(timeout=5.0)
         if child.is_alive():
             child.kill()
+    # join the pool's management thread now, so that nothing of it is left for the
+    # interpreter's exit (which would otherwise print a traceback from a closed pipe)
+    with contextlib.suppress(Exception):
+        pool.shutdown(wait=True, cancel_futures=True)
 
 
 def _worker_init() -> None:
