@@ -120,8 +120,8 @@ class _ProgressLine:
     """Prints build progress to stderr: done/total, failed solves, time left, what finished."""
 
     def __init__(self) -> None:
-        self.start = time.monotonic()
-        self.stage = ""
+        self.start = time.monotonic()  # the build starts with its nodes
+        self.stage = "nodes"
 
     def __call__(self, event: Any) -> None:
         if event.stage != self.stage:

@@ -54,3 +54,15 @@ def test_work_estimate_is_printed_before_the_build(tmp_path: Path, monkeypatch) 
     res = CliRunner().invoke(main, ["build", str(SPEC), "--out", str(tmp_path / "out")])
     assert "work: 2 x 2 = 4 nodes, up to 3 event sequences each" in res.stderr
     assert res.exit_code == 130 and not (tmp_path / "out").exists()
+
+
+def test_progress_line_estimates_time_left_from_the_build_start(capsys) -> None:
+    """A third of the nodes done after 100 s: about 200 s (3 min) left, not 0."""
+    from obvert.cli import _ProgressLine
+    from obvert.table import ProgressEvent
+
+    line = _ProgressLine()
+    line.start -= 100.0
+    line(ProgressEvent("nodes", 3, 9, 1, "6 mm row certified"))
+    err = capsys.readouterr().err
+    assert "[nodes 3/9, 1 failed solves, about 3 min left] 6 mm row certified" in err
