@@ -7,13 +7,12 @@ history kept for the time-at-temperature rule.
 
 from __future__ import annotations
 
-import multiprocessing
 from collections.abc import Sequence
-from concurrent.futures import ProcessPoolExecutor
 
 from obvert.certify.node import Verdict, judge
 from obvert.plan.schedule import Schedule
 from obvert.problem.model import Case
+from obvert.workers import run_tasks
 
 
 def judge_many(
@@ -59,16 +58,10 @@ def judge_many(
 
 
 def _parallel(cases: list[Case], schedules: list[Schedule], jobs: int) -> list[Verdict]:
-    """:func:`judge_many` over ``jobs`` processes (interleaved shares, order kept)."""
+    """:func:`judge_many` over ``jobs`` local workers (interleaved shares, order kept)."""
     n = min(jobs, len(cases))
-    ctx = multiprocessing.get_context("spawn")
-    with ProcessPoolExecutor(max_workers=n, mp_context=ctx) as pool:
-        parts = list(
-            pool.map(
-                judge_many, [cases[k::n] for k in range(n)], [schedules[k::n] for k in range(n)]
-            )
-        )
-    out: list[Verdict] = [parts[0][0]] * len(cases)
-    for k, part in enumerate(parts):
+    tasks = [(cases[k::n], schedules[k::n]) for k in range(n)]
+    out: list[Verdict | None] = [None] * len(cases)
+    for k, part in run_tasks(judge_many, tasks, jobs=n):
         out[k::n] = part
-    return out
+    return [v for v in out if v is not None]

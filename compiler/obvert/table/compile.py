@@ -17,10 +17,10 @@ from obvert.certify.cells import CellError, CellResult, bilinear_cell, corner_ce
 from obvert.firmware.contract import RULES
 from obvert.problem.model import Problem, problem_of
 from obvert.spec.model import Spec
-from obvert.table.executor import run_tasks
 from obvert.table.manifest import node_entries
 from obvert.table.model import CookTable
 from obvert.table.sweep import Progress, ProgressEvent, build
+from obvert.workers import run_tasks
 
 
 class CellCertificationError(RuntimeError):

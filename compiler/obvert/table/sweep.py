@@ -20,8 +20,8 @@ from obvert.plan.ocp import Member, PlanError, Planner, PlanResult, Solution
 from obvert.plan.quantize import quantize
 from obvert.problem.model import Case, Problem
 from obvert.spec.model import Spec
-from obvert.table.executor import run_tasks
 from obvert.table.model import Candidate, Node
+from obvert.workers import run_tasks
 
 
 @dataclass(frozen=True)

@@ -1,4 +1,4 @@
-"""Where the independent pieces of a build run: here, in local workers, or on a cluster.
+"""Where independent pieces of work run: here, in local workers, or on a cluster.
 
 Any ``concurrent.futures.Executor`` will do, such as a Dask client's executor.
 
