@@ -29,7 +29,8 @@ from dataclasses import dataclass, replace
 
 import numpy as np
 
-from obvert.food.criteria import HoldRule, hold_margin_s, time_above_by_step
+from obvert.certify.history import slack_rows
+from obvert.food.criteria import hold_margin_s
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
 from obvert.thermal.reference import food_frame, simulate
@@ -285,34 +286,9 @@ CONFIRM_TRIES = 8
 
 
 def _passing_curve(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
-    """Times and pass/fail of every row of one run of ``long`` (food left on the plate).
-
-    Removing the food at a row's time would give the state of that row: the log reduction
-    and the coldest point are read there, and the time at temperature accumulated so far.
-    """
-    req = case.requirement
-    phases = phases_for(long, case.env)
-    res = simulate(
-        case.table, case.thickness_m, case.start_temp_c, phases, case.lethality, case.settings
-    )
-    ok = res.log_reduction.min(axis=1) >= req.log_reduction
-    if req.min_temp_c is not None:
-        ok &= res.temp_c.min(axis=1) >= req.min_temp_c
-    if req.holds:
-        temps, _ = food_frame(res)
-        ok &= _hold_met_by_row(res.t_s, temps, req.holds)
-    return res.t_s, ok
-
-
-def _hold_met_by_row(t_s: np.ndarray, temps: np.ndarray, holds: tuple[HoldRule, ...]) -> np.ndarray:
-    """Whether the time-at-temperature rule is met if the cook ended at each row."""
-    met = np.zeros(t_s.size, dtype=bool)
-    for rule in holds:
-        steps = time_above_by_step(t_s, temps, rule.temp_c)
-        above = np.vstack([np.zeros((1, temps.shape[1])), np.cumsum(steps, axis=0)])
-        reached = np.maximum.accumulate(temps, axis=0) >= rule.temp_c
-        met |= np.all(reached & (above >= rule.hold_s), axis=1)
-    return met
+    """Times and pass/fail of every row of one run of ``long`` (food left on the plate)."""
+    t_s, slack = slack_rows(case, long)
+    return t_s, slack >= 0.0
 
 
 def _read_off_one_run(

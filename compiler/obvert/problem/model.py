@@ -7,7 +7,7 @@ Every later stage (planning, calibration, certification of nodes and cells) read
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from dataclasses import dataclass, replace
 
 from obvert.food.criteria import HoldRule, Requirement
 from obvert.food.lethality import LethalityModel
@@ -75,6 +75,9 @@ class Problem:
         The nominal scenario when tolerances are declared (for the price of robustness).
     sequences : tuple of tuple of str
         Event sequences (before done) the planner tries, in order.
+    search : ReferenceSettings
+        Mesh of the finite-volume model the event-time search runs on (coarser than the
+        reference's).
     """
 
     spec: Spec
@@ -86,10 +89,17 @@ class Problem:
     scenarios: tuple[Scenario, ...]
     nominal: Scenario | None
     sequences: tuple[tuple[str, ...], ...]
+    search: ReferenceSettings = ReferenceSettings(30, 0.5)  # noqa: RUF009 (frozen)
 
     def cases_at(self, thickness_m: float, start_temp_c: float) -> tuple[Case, ...]:
         """Reference cases of every scenario behind a *measured* point (m, degC)."""
         return tuple(self.case(s, thickness_m, start_temp_c) for s in self.scenarios)
+
+    def search_cases_at(self, thickness_m: float, start_temp_c: float) -> tuple[Case, ...]:
+        """The cases of :meth:`cases_at` on the search mesh."""
+        return tuple(
+            replace(c, settings=self.search) for c in self.cases_at(thickness_m, start_temp_c)
+        )
 
     def case(self, scenario: Scenario, thickness_m: float, start_temp_c: float) -> Case:
         """The reference case of ``scenario`` behind a measured point (m, degC)."""
@@ -162,4 +172,5 @@ def problem_of(spec: Spec) -> Problem:
         scenarios=scenarios(spec, env),
         nominal=nominal(spec, env) if spec.tolerances.any else None,
         sequences=sequences(spec),
+        search=ReferenceSettings(p.search_cells, p.search_step_s),
     )

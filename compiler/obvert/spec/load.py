@@ -283,6 +283,9 @@ def _planning(sec: Section | None) -> PlanningSpec:
         calibration_rounds=sec.get("calibration_rounds"),
         min_margin_log=sec.get("min_margin"),
         reference_refinement=sec.get("reference_refinement"),
+        method=sec.get("method"),
+        search_cells=sec.get("search_cells"),
+        search_step_s=sec.get("search_step"),
     )
     sec.done()
     return out

@@ -196,6 +196,13 @@ class PlanningSpec:
     reference_refinement : int
         The error check runs the binding scenario on this many times the cells and this
         fraction of the time step, -.
+    method : str
+        ``search`` (event times searched on a coarse finite-volume model) or
+        ``collocation`` (optimal control on the reduced model).
+    search_cells : int
+        Finite-volume cells of the search model, -.
+    search_step_s : float
+        Largest time step of the search model, s.
     """
 
     flip_cost_s: float
@@ -207,6 +214,9 @@ class PlanningSpec:
     calibration_rounds: int = 3
     min_margin_log: float = 0.1
     reference_refinement: int = 2
+    method: str = "search"
+    search_cells: int = 30
+    search_step_s: float = 0.5
 
 
 @dataclass(frozen=True)

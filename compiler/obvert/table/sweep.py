@@ -12,15 +12,15 @@ from dataclasses import dataclass, replace
 import numpy as np
 
 from obvert.certify.calibrate import Calibrated, calibrate
-from obvert.certify.node import CertificationError, ErrorBudget, certify
-from obvert.firmware.contract import to_ticks
 from obvert.plan.bounds import BoundPlanners
 from obvert.plan.collocation import Grid
 from obvert.plan.ocp import Member, PlanError, Planner, PlanResult, Solution
 from obvert.plan.quantize import quantize
 from obvert.problem.model import Case, Problem
 from obvert.spec.model import Spec
+from obvert.table.entry import BuildError, certified_node, node_name
 from obvert.table.model import Candidate, Node
+from obvert.table.searched import search_row
 from obvert.workers import run_tasks
 
 
@@ -50,10 +50,6 @@ class ProgressEvent:
 
 
 Progress = Callable[[ProgressEvent], None]
-
-
-class BuildError(RuntimeError):
-    """A grid node could not be planned or certified; nothing may be emitted."""
 
 
 def build(
@@ -93,8 +89,11 @@ def build(
     n_t, n_s = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
     rows: dict[int, list[Node]] = {}
     failures = 0
-    tasks = [(problem, i) for i in range(n_t)]
-    for i, row in run_tasks(_row, tasks, jobs, executor, isolate):
+    # thickest rows first: they take longest, so the workers finish together
+    order = sorted(range(n_t), key=lambda i: -spec.grid.thickness_m[i])
+    tasks = [(problem, i) for i in order]
+    for k, row in run_tasks(_row, tasks, jobs, executor, isolate):
+        i = order[k]
         rows[i] = row
         failures += sum(c.planned_cook_time_s is None for n in row for c in n.candidates)
         if progress is not None:
@@ -113,6 +112,13 @@ def build(
 
 
 def _row(problem: Problem, i: int) -> list[Node]:
+    """All nodes of thickness row ``i``, by the spec's planning method."""
+    if problem.spec.planning.method == "search":
+        return search_row(problem, i)
+    return _collocation_row(problem, i)
+
+
+def _collocation_row(problem: Problem, i: int) -> list[Node]:
     """All nodes of thickness row ``i`` (one planner, reused across start temperatures)."""
     spec = problem.spec
     thick = spec.grid.thickness_m[i]
@@ -194,7 +200,7 @@ def _node(
     at: tuple[float, float],
     history: dict[tuple[str, ...], list[Solution]],
 ) -> Node:
-    cell = f"node (thickness {at[0] * 1e3:g} mm, start {at[1]:g} degC)"
+    cell = node_name(at)
     t_plan = cases[0].start_temp_c
     cands: list[Candidate] = []
     solved: dict[tuple[str, ...], PlanResult] = {}
@@ -230,35 +236,19 @@ def _node(
     plan = choice.result.schedule
     a = spec.appliance
     ticked = quantize(plan, a.tick_s, a.min_event_gap_s, a.flip_air_s)
-    try:
-        p = spec.planning
-        budget = ErrorBudget(p.min_margin_log, p.reference_refinement)
-        cert = certify(cases, ticked, a.tick_s, budget=budget)
-    except CertificationError as exc:
-        raise BuildError(f"{cell}: {exc}") from None
-    for ev in cert.schedule.events:  # every emitted time is a whole tick
-        if abs(to_ticks(ev.at_s, a.tick_s) * a.tick_s - ev.at_s) > 1e-9:
-            raise BuildError(f"{cell}: event {ev.kind} at {ev.at_s} s is not a whole tick")
-    return Node(
-        i=i,
-        j=j,
-        thickness_m=at[0],
-        start_temp_c=at[1],
-        schedule=cert.schedule,
-        planned_cook_time_s=plan.done_s,
-        extension_s=cert.extension_s,
-        reference_error_log=cert.error.log if cert.error else 0.0,
-        reference_error_k=cert.error.temp_k if cert.error else 0.0,
-        required_margin_log=cert.required_margin_log,
-        min_log_reduction=cert.verdict.min_log_reduction,
-        margin_log=cert.margin_log,
-        min_temp_at_removal_c=cert.verdict.min_temp_at_removal_c,
-        hold_margin_s=cert.verdict.hold_margin_s,
+    node, _ = certified_node(
+        problem,
+        cases,
+        (i, j),
+        at,
+        ticked,
+        plan.done_s,
         candidates=tuple(cands),
         model_planned_s=choice.model_cook_time_s if spec.planning.calibration_rounds else None,
         calibration_note=choice.note,
         planned_dwell_s=choice.result.dwell_s,
     )
+    return node
 
 
 #: Candidates whose uncorrected cost is within this fraction of the best are corrected too

@@ -1,0 +1,195 @@
+"""One thickness row of the table planned by direct search of event times.
+
+Per node, every event sequence the appliance allows is searched on the coarse mesh
+(:func:`obvert.search.search_events`), starting from the same sequence's event times at the
+row's earlier nodes (extrapolated along the start temperature), or else from the optimum with
+one event fewer. The sequence of least cost (cook time plus ``flip_cost`` per flip, on the
+search mesh) wins. Its event times are put on whole ticks, and its done time is read off one
+reference run per scenario, against the target raised by the margin certification will ask
+for (the spec's minimum plus the reference error measured at the previous node of the row),
+so that certification usually passes at its first run. Certification then decides, as for
+any plan (:func:`obvert.table.entry.certified_node`).
+
+The nodes of a row are solved in order of start temperature, each from the ones before it,
+whichever worker runs the row: the result does not depend on how the rows are shared out.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import replace
+
+from obvert.certify.node import raised
+from obvert.plan.quantize import quantize
+from obvert.problem.model import Case, Problem
+from obvert.search import (
+    Searched,
+    SearchError,
+    Sequence,
+    limits,
+    read_done,
+    search_events,
+    seed_from,
+)
+from obvert.search.events import predict
+from obvert.table.entry import BuildError, certified_node, node_name
+from obvert.table.model import Candidate, Node
+
+#: Per event sequence, (start temperature degC, dwells s) of the row's nodes so far.
+History = dict[tuple[str, ...], list[tuple[float, tuple[float, ...]]]]
+
+
+def search_row(problem: Problem, i: int) -> list[Node]:
+    """All nodes of thickness row ``i``, planned by event-time search."""
+    spec = problem.spec
+    thick = spec.grid.thickness_m[i]
+    history: History = {}
+    error = (0.0, 0.0)  # reference error (log10, K) at the previous node of the row
+    out = []
+    for j, t0 in enumerate(spec.grid.start_temp_c):
+        node, error = _node(problem, i, j, (thick, t0), history, error)
+        out.append(node)
+    return out
+
+
+def _cold_start(seq: Sequence, cook_s: float) -> tuple[float, ...]:
+    """Start with no neighbour: flips evenly spaced over ``cook_s``, platen moves early, s."""
+    flips = seq.kinds.count("flip")
+    lb = seq.lower_bounds()
+    return tuple(
+        cook_s / (flips + 1) if kind == "flip" else float(lb[k]) for k, kind in enumerate(seq.kinds)
+    )
+
+
+def _search(
+    cases: tuple[Case, ...],
+    seq: Sequence,
+    starts: list[tuple[float, ...]],
+    hint_s: float,
+    fewer: Searched | None,
+) -> tuple[Searched, int]:
+    """Search from the first start; the others only if it fails or is no faster than ``fewer``."""
+    best: Searched | None = None
+    runs, errors = 0, []
+    for start in starts:
+        try:
+            res = search_events(cases, seq, start, hint_s)
+        except SearchError as exc:
+            errors.append(str(exc))
+            continue
+        runs += res.runs
+        if best is None or res.done_s < best.done_s - 1e-9:
+            best = res
+        if fewer is None or best.done_s < fewer.done_s - 1e-9:
+            break
+    if best is None:
+        raise SearchError("; ".join(errors))
+    return best, runs
+
+
+def _node(
+    problem: Problem,
+    i: int,
+    j: int,
+    at: tuple[float, float],
+    history: History,
+    error: tuple[float, float],
+) -> tuple[Node, tuple[float, float]]:
+    spec = problem.spec
+    a, p = spec.appliance, spec.planning
+    cases = problem.cases_at(*at)
+    coarse = problem.search_cases_at(*at)
+    bounds = limits(coarse[0])
+    hint = 1.2 * max((v for v in bounds.values() if v is not None), default=600.0)
+    found: dict[tuple[str, ...], Searched] = {}
+    cands: list[Candidate] = []
+    total_runs = 0
+    for kinds in problem.sequences:
+        seq = Sequence(kinds, a.min_event_gap_s, a.flip_air_s)
+        fewer = found.get(kinds[:-1]) if kinds and kinds[-1] == "flip" else None
+        starts: list[tuple[float, ...]] = []
+        if kinds in history:
+            starts.append(tuple(predict(history[kinds][-2:], at[1])))
+        if kinds and kinds[:-1] in found:
+            starts.append(seed_from(found[kinds[:-1]], seq))
+        starts.append(_cold_start(seq, hint))
+        try:
+            res, runs = _search(coarse, seq, starts, hint, fewer)
+        except SearchError as exc:
+            cands.append(Candidate(kinds.count("flip"), None, str(exc), kinds))
+            continue
+        total_runs += runs
+        found[kinds] = res
+        history.setdefault(kinds, []).append((at[1], res.dwell_s))
+        note = f"searched: {res.status}, {runs} runs of the search mesh"
+        cands.append(Candidate(kinds.count("flip"), res.done_s, note, kinds))
+    if not found:
+        raise BuildError(
+            f"{node_name(at)}: no event sequence reaches the target: "
+            + "; ".join(c.note for c in cands)
+        )
+
+    def cost(r: Searched) -> float:
+        return r.done_s + r.seq.kinds.count("flip") * p.flip_cost_s
+
+    choice = min(found.values(), key=cost)  # ties: the first (fewer events) wins
+    seq = choice.seq
+    ticked = quantize(
+        seq.schedule(choice.dwell_s, choice.done_s), a.tick_s, a.min_event_gap_s, a.flip_air_s
+    )
+    dwell = seq.dwells_of(ticked)
+    # done off the reference itself, against the margin certification will ask for
+    stricter = [raised(c, p.min_margin_log + error[0], error[1]) for c in cases]
+    planned = read_done(stricter, seq, dwell, 1.2 * choice.done_s + 60.0)
+    if not math.isfinite(planned):
+        planned = choice.done_s
+    ticked = seq.schedule(dwell, max(planned, seq.earliest_done_s(dwell)))
+    ticked = quantize(ticked, a.tick_s, a.min_event_gap_s, a.flip_air_s)
+    nominal = _nominal(problem, at, choice, stricter_by=(p.min_margin_log + error[0], error[1]))
+    node, cert = certified_node(
+        problem,
+        cases,
+        (i, j),
+        at,
+        ticked,
+        planned,
+        candidates=tuple(
+            c if c.sequence != seq.kinds else _with_reference(c, planned) for c in cands
+        ),
+        bounds_s=tuple(sorted(bounds.items())),
+        nominal_planned_s=nominal,
+        model_planned_s=choice.done_s,
+        calibration_note=(
+            f"event times searched on {problem.search.n_cells} cells, "
+            f"{problem.search.dt_max_s:g} s steps ({total_runs} runs); done read off the "
+            "reference"
+        ),
+        planned_dwell_s=dwell,
+    )
+    err = (cert.error.log, cert.error.temp_k) if cert.error else (0.0, 0.0)
+    return node, err
+
+
+def _with_reference(c: Candidate, planned_s: float) -> Candidate:
+    return Candidate(c.flips, c.planned_cook_time_s, c.note, c.sequence, planned_s)
+
+
+def _nominal(
+    problem: Problem, at: tuple[float, float], robust: Searched, stricter_by: tuple[float, float]
+) -> float | None:
+    """Done time of the chosen sequence at nominal conditions, s (None: no tolerances).
+
+    Searched from the robust event times, and read off the reference against the same raised
+    target as the robust plan, so that the price of robustness compares like with like.
+    """
+    nom = problem.nominal
+    if nom is None:
+        return None
+    ref = problem.case(nom, *at)
+    coarse = (replace(ref, settings=problem.search),)
+    try:
+        res = search_events(coarse, robust.seq, robust.dwell_s, robust.done_s)
+    except SearchError:
+        return None
+    done = read_done([raised(ref, *stricter_by)], res.seq, res.dwell_s, 1.2 * res.done_s + 60.0)
+    return float(done) if math.isfinite(done) else None
