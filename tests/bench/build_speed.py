@@ -9,6 +9,10 @@ Printed, all in one run (figures are ratios against baselines measured in the sa
   wall time, nodes, and per thickness row the cost of a node in units of one reference run
   of that node's certified schedule (the row's wall time over its nodes, divided by the
   time of one reference run of the schedule at the spec's reference settings);
+* cold against warm: one node of the demo (12 mm from -14 degC) searched for 2 and for 4
+  flips from the equal-spacing start the row's first node uses and from the prediction of
+  its two neighbours at -18 and -10 degC (continuation), in runs of the search mesh and
+  seconds;
 * for two nodes of the demo (10 mm from 4 degC with one flip, and with two flips), the
   brute-force optimum on the reference model: every flip time on a grid (2 s, then 0.1 s
   around the best; for two flips a 4 s grid, then coordinate refinement), the earliest
@@ -143,6 +147,37 @@ def optimum_figures(spec: obvert.Spec) -> None:
         )
 
 
+def warm_figures(spec: obvert.Spec) -> None:
+    from obvert.search import Sequence, search_events
+    from obvert.search.events import predict
+
+    problem = problem_of(spec)
+    a = spec.appliance
+    thick = 0.012
+    for flips in (2, 4):
+        seq = Sequence(("flip",) * flips, a.min_event_gap_s, a.flip_air_s)
+        history = []
+        for t0 in (-18.0, -10.0):
+            cases = problem.search_cases_at(thick, t0)
+            cold = tuple(250.0 / (flips + 1) for _ in range(flips))
+            history.append((t0, search_events(cases, seq, cold, 300.0).dwell_s))
+        cases = problem.search_cases_at(thick, -14.0)
+        figures = []
+        for name, start in (
+            ("cold", tuple(250.0 / (flips + 1) for _ in range(flips))),
+            ("warm", tuple(predict(history, -14.0))),
+        ):
+            t1 = time.perf_counter()
+            res = search_events(cases, seq, start, 300.0)
+            figures.append((name, res.runs, time.perf_counter() - t1, res.done_s))
+        (_, rc, sc, dc), (_, rw, sw, dw) = figures
+        print(
+            f"12 mm from -14 degC, {flips} flips: cold start {rc} runs {sc:.2f} s (done "
+            f"{dc:.2f} s); warm start {rw} runs {sw:.2f} s (done {dw:.2f} s); "
+            f"cold / warm time {sc / sw:.1f}x"
+        )
+
+
 def main() -> None:
     ap = argparse.ArgumentParser(description=__doc__.split("\n")[0])
     ap.add_argument("--quick", action="store_true", help="a 2 x 2 corner of the demo")
@@ -154,6 +189,7 @@ def main() -> None:
     args = ap.parse_args()
     spec = _spec(args.quick, args.demo)
     build_figures(spec, args.jobs)
+    warm_figures(spec)
     if not args.skip_brute_force:
         optimum_figures(spec)
 

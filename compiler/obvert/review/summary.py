@@ -54,11 +54,16 @@ def summary(m: dict[str, Any]) -> str:
             f"  largest +{100 * price['max_fraction']:.1f} %, "
             f"mean +{100 * price['mean_fraction']:.1f} %"
         )
+    searched = m["spec"]["planning"].get("method", "collocation") == "search"
     gap = s.get("reduced_model_gap")
     if gap is not None:
+        what = (
+            "search mesh alone against the done time read off the reference"
+            if searched
+            else "reduced model alone against the reference-calibrated plan"
+        )
         lines.append(
-            "reduced model alone against the reference-calibrated plan: "
-            f"largest {100 * gap['largest_fraction']:+.3f} %, "
+            f"{what}: largest {100 * gap['largest_fraction']:+.3f} %, "
             f"mean {100 * gap['mean_fraction']:+.3f} %"
         )
     for rule, cells in sorted(m.get("cells", {}).items()):
@@ -75,12 +80,18 @@ def summary(m: dict[str, Any]) -> str:
                     else "covered by its corner node (monotonicity)"
                 )
             )
+    plan_note = (
+        "plan s: done before ticks (event times searched on the search mesh, done read off "
+        "the reference with the margin to come); "
+        if searched
+        else "plan s: optimum before ticks (reduced model, corrected against the reference "
+        "unless calibration_rounds = 0); "
+    )
     lines.append(
-        "plan s: optimum before ticks (reduced model, corrected against the reference unless "
-        "calibration_rounds = 0); fix s: extension needed on the reference "
+        plan_note + "fix s: extension needed on the reference "
         "model; need log: margin required (the reference's estimated error, measured on a finer "
         "reference, plus [planning] min_margin); ff lim s / 2side s: fast-flip and "
-        "two-sided-contact limits (reduced model)"
+        "two-sided-contact limits (" + ("search mesh" if searched else "reduced model") + ")"
     )
     lines.append(
         f"smallest margin {s['smallest_margin_log']:.3f} log; "

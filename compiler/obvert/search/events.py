@@ -93,7 +93,11 @@ def _first_done(cases: Seq[Case], seq: Sequence, dwell: np.ndarray, hint_s: floa
 
 
 def search_events(
-    cases: Seq[Case], seq: Sequence, start: Seq[float], hint_s: float = 0.0
+    cases: Seq[Case],
+    seq: Sequence,
+    start: Seq[float],
+    hint_s: float = 0.0,
+    simplex_fraction: float = SIMPLEX_FRACTION,
 ) -> Searched:
     """Dwells of least done time for the event sequence, s.
 
@@ -107,6 +111,9 @@ def search_events(
         Dwells to start from, s (clipped to the appliance's limits).
     hint_s : float
         Expected done time, s (the first run's length; 0: from the limits).
+    simplex_fraction : float
+        Width of the first simplex as a fraction of each dwell, - (smaller for a start
+        predicted from neighbouring nodes, which is close to the optimum).
 
     Returns
     -------
@@ -135,7 +142,7 @@ def search_events(
             return done
         return 1e9 + float(np.sum(d))  # slower than the horizon: worse than any point seen
 
-    steps = np.maximum(SIMPLEX_FRACTION * x0, MIN_STEP_S)
+    steps = np.maximum(simplex_fraction * x0, MIN_STEP_S)
     simplex = np.vstack([x0, x0 + np.diag(steps)])
     res = minimize(
         done_of,

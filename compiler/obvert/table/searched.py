@@ -121,7 +121,7 @@ def _node(
         total_runs += runs
         found[kinds] = res
         history.setdefault(kinds, []).append((at[1], res.dwell_s))
-        note = f"searched: {res.status}, {runs} runs of the search mesh"
+        note = f"searched: {res.status} ({runs} run{'' if runs == 1 else 's'} of the search mesh)"
         cands.append(Candidate(kinds.count("flip"), res.done_s, note, kinds))
     if not found:
         raise BuildError(
