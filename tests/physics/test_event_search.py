@@ -112,9 +112,14 @@ def test_continuation_start_converges_to_the_same_optimum_in_fewer_runs() -> Non
         history.append((t0, search_events(_cases(0.006, t0), seq, (40.0,) * 3, 200.0).dwell_s))
     mid = _cases(0.006, 2.0)
     cold = search_events(mid, seq, (40.0,) * 3, 200.0)
-    warm = search_events(mid, seq, tuple(predict(history, 2.0)), 200.0)
+    predicted = tuple(predict(history, 2.0))
+    warm = search_events(mid, seq, predicted, 200.0)
     assert abs(warm.done_s - cold.done_s) <= 0.05
     assert warm.runs < 0.5 * cold.runs
+    # from the same prediction, quadratic models in a small trust region (COBYQA)
+    near = search_events(mid, seq, predicted, 200.0, near=True)
+    assert abs(near.done_s - cold.done_s) <= 0.05
+    assert near.runs < warm.runs
 
 
 def test_predict_extrapolates_linearly_in_start_temperature() -> None:

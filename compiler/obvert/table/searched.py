@@ -64,16 +64,19 @@ def _cold_start(seq: Sequence, cook_s: float) -> tuple[float, ...]:
 def _search(
     cases: tuple[Case, ...],
     seq: Sequence,
-    starts: list[tuple[float, ...]],
+    starts: list[tuple[tuple[float, ...], bool]],
     hint_s: float,
     fewer: Searched | None,
 ) -> tuple[Searched, int]:
-    """Search from the first start; the others only if it fails or is no faster than ``fewer``."""
+    """Search from the first start; the others only if it fails or is no faster than ``fewer``.
+
+    Each start is (dwells in s, whether it was predicted from neighbouring nodes).
+    """
     best: Searched | None = None
     runs, errors = 0, []
-    for start in starts:
+    for start, near in starts:
         try:
-            res = search_events(cases, seq, start, hint_s)
+            res = search_events(cases, seq, start, hint_s, near=near)
         except SearchError as exc:
             errors.append(str(exc))
             continue
@@ -107,12 +110,12 @@ def _node(
     for kinds in problem.sequences:
         seq = Sequence(kinds, a.min_event_gap_s, a.flip_air_s)
         fewer = found.get(kinds[:-1]) if kinds and kinds[-1] == "flip" else None
-        starts: list[tuple[float, ...]] = []
+        starts: list[tuple[tuple[float, ...], bool]] = []
         if kinds in history:
-            starts.append(tuple(predict(history[kinds][-2:], at[1])))
+            starts.append((tuple(predict(history[kinds][-2:], at[1])), True))
         if kinds and kinds[:-1] in found:
-            starts.append(seed_from(found[kinds[:-1]], seq))
-        starts.append(_cold_start(seq, hint))
+            starts.append((seed_from(found[kinds[:-1]], seq), False))
+        starts.append((_cold_start(seq, hint), False))
         try:
             res, runs = _search(coarse, seq, starts, hint, fewer)
         except SearchError as exc:
@@ -179,8 +182,9 @@ def _nominal(
 ) -> float | None:
     """Done time of the chosen sequence at nominal conditions, s (None: no tolerances).
 
-    Searched from the robust event times, and read off the reference against the same raised
-    target as the robust plan, so that the price of robustness compares like with like.
+    Searched from the robust event times (a start near the nominal optimum), and read off
+    the reference against the same raised target as the robust plan, so that the price of
+    robustness compares like with like.
     """
     nom = problem.nominal
     if nom is None:
@@ -188,7 +192,7 @@ def _nominal(
     ref = problem.case(nom, *at)
     coarse = (replace(ref, settings=problem.search),)
     try:
-        res = search_events(coarse, robust.seq, robust.dwell_s, robust.done_s)
+        res = search_events(coarse, robust.seq, robust.dwell_s, robust.done_s, near=True)
     except SearchError:
         return None
     done = read_done([raised(ref, *stricter_by)], res.seq, res.dwell_s, 1.2 * res.done_s + 60.0)
