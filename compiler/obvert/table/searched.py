@@ -44,10 +44,11 @@ def search_row(problem: Problem, i: int) -> list[Node]:
     spec = problem.spec
     thick = spec.grid.thickness_m[i]
     history: History = {}
+    nominal: History = {}  # the same for the nominal plans (price of robustness)
     error = (0.0, 0.0)  # reference error (log10, K) at the previous node of the row
     out = []
     for j, t0 in enumerate(spec.grid.start_temp_c):
-        node, error = _node(problem, i, j, (thick, t0), history, error)
+        node, error = _node(problem, i, j, (thick, t0), (history, nominal), error)
         out.append(node)
     return out
 
@@ -95,11 +96,12 @@ def _node(
     i: int,
     j: int,
     at: tuple[float, float],
-    history: History,
+    histories: tuple[History, History],
     error: tuple[float, float],
 ) -> tuple[Node, tuple[float, float]]:
     spec = problem.spec
     a, p = spec.appliance, spec.planning
+    history, nominal_history = histories
     cases = problem.cases_at(*at)
     coarse = problem.search_cases_at(*at)
     bounds = limits(coarse[0])
@@ -148,7 +150,8 @@ def _node(
         planned = choice.done_s
     ticked = seq.schedule(dwell, max(planned, seq.earliest_done_s(dwell)))
     ticked = quantize(ticked, a.tick_s, a.min_event_gap_s, a.flip_air_s)
-    nominal = _nominal(problem, at, choice, stricter_by=(p.min_margin_log + error[0], error[1]))
+    stricter_by = (p.min_margin_log + error[0], error[1])
+    nominal = _nominal(problem, at, choice, stricter_by, nominal_history)
     node, cert = certified_node(
         problem,
         cases,
@@ -178,12 +181,17 @@ def _with_reference(c: Candidate, planned_s: float) -> Candidate:
 
 
 def _nominal(
-    problem: Problem, at: tuple[float, float], robust: Searched, stricter_by: tuple[float, float]
+    problem: Problem,
+    at: tuple[float, float],
+    robust: Searched,
+    stricter_by: tuple[float, float],
+    history: History,
 ) -> float | None:
     """Done time of the chosen sequence at nominal conditions, s (None: no tolerances).
 
-    Searched from the robust event times (a start near the nominal optimum), and read off
-    the reference against the same raised target as the robust plan, so that the price of
+    Searched from the nominal optima of the row's earlier nodes with the same sequence
+    (predicted as for the robust plans), else from the robust event times; read off the
+    reference against the same raised target as the robust plan, so that the price of
     robustness compares like with like.
     """
     nom = problem.nominal
@@ -191,9 +199,12 @@ def _nominal(
         return None
     ref = problem.case(nom, *at)
     coarse = (replace(ref, settings=problem.search),)
+    kinds = robust.seq.kinds
+    start = tuple(predict(history[kinds][-2:], at[1])) if kinds in history else robust.dwell_s
     try:
-        res = search_events(coarse, robust.seq, robust.dwell_s, robust.done_s, near=True)
+        res = search_events(coarse, robust.seq, start, robust.done_s, near=True)
     except SearchError:
         return None
+    history.setdefault(kinds, []).append((at[1], res.dwell_s))
     done = read_done([raised(ref, *stricter_by)], res.seq, res.dwell_s, 1.2 * res.done_s + 60.0)
     return float(done) if math.isfinite(done) else None
