@@ -274,9 +274,12 @@ def raised(case: Case, extra_log: float, extra_k: float) -> Case:
 
 def _binding_error(cases: Sequence[Case], schedule: Schedule, refinement: int) -> ReferenceError:
     """Reference error of the scenario(s) that bind: smallest log reduction, coldest point."""
-    verdicts = [judge(c, schedule) for c in cases]
-    k_lr = int(np.argmin([v.min_log_reduction for v in verdicts]))
-    k_t = int(np.argmin([v.min_temp_at_removal_c for v in verdicts]))
+    if len(cases) == 1:  # one scenario binds both; no run needed to find it
+        k_lr = k_t = 0
+    else:
+        verdicts = [judge(c, schedule) for c in cases]
+        k_lr = int(np.argmin([v.min_log_reduction for v in verdicts]))
+        k_t = int(np.argmin([v.min_temp_at_removal_c for v in verdicts]))
     errs = [reference_error(cases[k], schedule, refinement) for k in sorted({k_lr, k_t})]
     return ReferenceError(max(e.log for e in errs), max(e.temp_k for e in errs))
 

@@ -145,7 +145,10 @@ def _node(
     dwell = seq.dwells_of(ticked)
     # done off the reference itself, against the margin certification will ask for
     stricter = [raised(c, p.min_margin_log + error[0], error[1]) for c in cases]
-    planned = read_done(stricter, seq, dwell, 1.2 * choice.done_s + 60.0)
+    # the search mesh's done time is within a few tenths of a per cent of the reference's
+    planned = read_done(stricter, seq, dwell, 1.03 * choice.done_s + 10.0)
+    if not math.isfinite(planned):
+        planned = read_done(stricter, seq, dwell, 1.5 * choice.done_s + 60.0)
     if not math.isfinite(planned):
         planned = choice.done_s
     ticked = seq.schedule(dwell, max(planned, seq.earliest_done_s(dwell)))
