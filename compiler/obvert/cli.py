@@ -313,5 +313,89 @@ def upgrade_cmd(old: Path, out_file: Path) -> None:
     click.echo(f"wrote {out_file} (format version {new['format_version']})")
 
 
+def _table_and_spec(table: Path, spec_file: Path | None) -> tuple[dict[str, Any], Any]:
+    """The manifest of ``table`` and its spec (``spec_file``, or read back from the table)."""
+    from obvert.review import ReviewError, check_spec_matches, read_manifest, spec_of_manifest
+    from obvert.spec import SpecError, load_spec
+
+    try:
+        m = read_manifest(table)
+        if spec_file is None:
+            return m, spec_of_manifest(m, str(table))
+        spec = load_spec(spec_file)
+        check_spec_matches(spec, m, str(table))
+        return m, spec
+    except (ReviewError, SpecError) as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+
+
+_SPEC_OPTION = click.option(
+    "--spec",
+    "spec_file",
+    default=None,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="The spec TOML the table was built from (default: the spec stored in the table).",
+)
+
+
+@main.command("show")
+@click.argument("table", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--thickness", required=True, help='Measured thickness with its unit, e.g. "12 mm".')
+@click.option("--start", required=True, help='Measured start temperature, e.g. "-18 degC".')
+@click.option(
+    "--rule",
+    type=click.Choice(["corner", "bilinear"]),
+    default="corner",
+    show_default=True,
+    help="Lookup rule of the firmware target (c99: corner, c99_bilinear: bilinear).",
+)
+@_SPEC_OPTION
+def show_cmd(table: Path, thickness: str, start: str, rule: str, spec_file: Path | None) -> None:
+    """Print the schedule TABLE (JSON) gives one measurement, with reference predictions.
+
+    The cold-spot temperature and log reduction at each event come from a reference run of
+    the looked-up schedule at the measured point, in the worst tolerance scenario. Exit 1
+    when the measurement is outside the table's envelope, 2 on a bad file or value.
+    """
+    from obvert.review import ReviewError, measured_point, show, show_text
+
+    m, spec = _table_and_spec(table, spec_file)
+    try:
+        x, t = measured_point(thickness, start)
+        shown = show(m, spec, x, t, rule)
+    except (ReviewError, ValueError) as exc:
+        click.echo(f"error: {table}: {exc}", err=True)
+        sys.exit(2)
+    click.echo(show_text(m, shown))
+    click.echo(f"caution: {CAUTION}")
+    if shown.status != 0:
+        sys.exit(1)
+
+
+@main.command("diff")
+@click.argument("old", type=click.Path(dir_okay=False, path_type=Path))
+@click.argument("new", type=click.Path(dir_okay=False, path_type=Path))
+def diff_cmd(old: Path, new: Path) -> None:
+    """Compare two JSON tables: nodes, cells and spec keys added, removed and changed.
+
+    Lines starting with "!" need review. Exit 0 when nothing needs review (identical, or
+    nodes only longer with no smaller margin and the same event kinds), 1 when something
+    does (a node or cell added or removed, a node shorter, with less margin or other event
+    kinds, a cell with less margin or pad, any spec, tolerance, safety, tick or axis change;
+    docs/review.md), 2 on a bad file.
+    """
+    from obvert.review import ReviewError, diff, diff_text, read_manifest
+
+    try:
+        a, b = read_manifest(old), read_manifest(new)
+    except ReviewError as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+    d = diff(a, b)
+    click.echo(diff_text(d))
+    sys.exit(1 if d.needs_review else 0)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -1,5 +1,27 @@
-"""Views of a manifest for people: the build summary (later: diffs, reports, checks)."""
+"""Views of a manifest for people: the build summary, lookups shown, diffs, checks, reports."""
 
+from obvert.review.diff import Diff, diff, diff_text
+from obvert.review.show import Shown, show, show_text
+from obvert.review.source import (
+    ReviewError,
+    check_spec_matches,
+    measured_point,
+    read_manifest,
+    spec_of_manifest,
+)
 from obvert.review.summary import summary
 
-__all__ = ["summary"]
+__all__ = [
+    "Diff",
+    "ReviewError",
+    "Shown",
+    "check_spec_matches",
+    "diff",
+    "diff_text",
+    "measured_point",
+    "read_manifest",
+    "show",
+    "show_text",
+    "spec_of_manifest",
+    "summary",
+]
