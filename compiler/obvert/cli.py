@@ -397,5 +397,56 @@ def diff_cmd(old: Path, new: Path) -> None:
     sys.exit(1 if d.needs_review else 0)
 
 
+@main.command("check")
+@click.argument("program", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--spec",
+    "spec_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Spec TOML: food, appliance, safety target, tolerances and reference settings.",
+)
+@click.option(
+    "--table",
+    "table",
+    default=None,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A certified JSON table built from the same spec, to compare done times with.",
+)
+@click.option(
+    "--rule",
+    type=click.Choice(["corner", "bilinear"]),
+    default="corner",
+    show_default=True,
+    help="Lookup rule of the table for the comparison.",
+)
+def check_cmd(program: Path, spec_file: Path, table: Path | None, rule: str) -> None:
+    """Check a hand-made cook PROGRAM (TOML bands, docs/review.md) on the reference model.
+
+    Each band is simulated at its thickest and coldest corner under the spec's tolerance
+    scenarios. Exit 0 when every band is safe, 1 when any band is not, 2 on a bad file.
+    """
+    from obvert.review import ReviewError, check_program, check_text, load_program
+    from obvert.spec import SpecError, load_spec
+
+    try:
+        spec = load_spec(spec_file)
+        prog = load_program(program, spec.appliance.tick_s)
+    except (ReviewError, SpecError) as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+    m = None
+    if table is not None:
+        m, _ = _table_and_spec(table, spec_file)
+    try:
+        checks = check_program(spec, prog, m, rule)
+    except ValueError as exc:  # e.g. a band outside the food's property range
+        click.echo(f"error: {program}: {exc}", err=True)
+        sys.exit(2)
+    click.echo(check_text(prog, checks))
+    click.echo(f"caution: {CAUTION}")
+    sys.exit(0 if all(c.safe for c in checks) else 1)
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -1,5 +1,13 @@
 """Views of a manifest for people: the build summary, lookups shown, diffs, checks, reports."""
 
+from obvert.review.check import (
+    BandCheck,
+    HandProgram,
+    check_program,
+    check_text,
+    load_program,
+    parse_program,
+)
 from obvert.review.diff import Diff, diff, diff_text
 from obvert.review.show import Shown, show, show_text
 from obvert.review.source import (
@@ -12,13 +20,19 @@ from obvert.review.source import (
 from obvert.review.summary import summary
 
 __all__ = [
+    "BandCheck",
+    "HandProgram",
     "Diff",
     "ReviewError",
     "Shown",
+    "check_program",
     "check_spec_matches",
+    "check_text",
     "diff",
     "diff_text",
+    "load_program",
     "measured_point",
+    "parse_program",
     "read_manifest",
     "show",
     "show_text",
