@@ -448,5 +448,33 @@ def check_cmd(program: Path, spec_file: Path, table: Path | None, rule: str) -> 
     sys.exit(0 if all(c.safe for c in checks) else 1)
 
 
+@main.command("report")
+@click.argument("table", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Where to write the report (one self-contained HTML file).",
+)
+@_SPEC_OPTION
+def report_cmd(table: Path, out_file: Path, spec_file: Path | None) -> None:
+    """Write a self-contained HTML review report of TABLE (JSON) with plots and a sign-off.
+
+    The same table gives the same bytes. Exit 2 on a bad file.
+    """
+    from obvert.review import report_html
+
+    m, spec = _table_and_spec(table, spec_file)
+    try:
+        data = report_html(m, spec)
+    except ValueError as exc:
+        click.echo(f"error: {table}: {exc}", err=True)
+        sys.exit(2)
+    write_atomically(out_file.parent, {out_file.name: data})
+    click.echo(f"wrote {out_file}")
+    click.echo(f"caution: {CAUTION}")
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()

@@ -9,6 +9,7 @@ from obvert.review.check import (
     parse_program,
 )
 from obvert.review.diff import Diff, diff, diff_text
+from obvert.review.report import SECTIONS, report_html
 from obvert.review.show import Shown, show, show_text
 from obvert.review.source import (
     ReviewError,
@@ -20,6 +21,7 @@ from obvert.review.source import (
 from obvert.review.summary import summary
 
 __all__ = [
+    "SECTIONS",
     "BandCheck",
     "HandProgram",
     "Diff",
@@ -34,6 +36,7 @@ __all__ = [
     "measured_point",
     "parse_program",
     "read_manifest",
+    "report_html",
     "show",
     "show_text",
     "spec_of_manifest",
