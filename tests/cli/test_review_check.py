@@ -108,3 +108,14 @@ def test_bad_file_exits_2_naming_it(tmp_path: Path) -> None:
 def test_check_help() -> None:
     res = CliRunner().invoke(main, ["check", "--help"])
     assert res.exit_code == 0 and "--spec" in res.stdout and "--table" in res.stdout
+
+
+def test_the_example_in_docs_review_md_reads_and_passes() -> None:
+    doc = (HERE.parents[1] / "docs" / "review.md").read_text("utf-8")
+    example = doc.split("```toml\n")[1].split("```")[0]
+    spec = load_spec(SPEC)
+    prog = parse_program(example, spec.appliance.tick_s, "docs/review.md")
+    assert prog.name == "brinecliff line 2" and len(prog.bands) == 1
+    assert [e.kind for e in prog.bands[0].schedule.events] == ["flip", "flip", "done"]
+    (c,) = check_program(spec, prog)
+    assert c.safe and c.extension_s == 0.0
