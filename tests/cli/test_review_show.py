@@ -109,3 +109,18 @@ def test_show_bad_file_exits_2_naming_it(tmp_path: Path) -> None:
 def test_show_help() -> None:
     res = CliRunner().invoke(main, ["show", "--help"])
     assert res.exit_code == 0 and "--thickness" in res.stdout and "--rule" in res.stdout
+
+
+def test_show_under_tolerances_runs_the_worst_scenario(built_tolerances) -> None:
+    """At the binding node of a table certified under tolerances, the prediction is the
+    certification's: the worst scenario, the node's own smallest log reduction."""
+    m = built_tolerances.manifest
+    k = min(range(len(m["nodes"])), key=lambda i: m["nodes"][i]["margin_log"])
+    node = m["nodes"][k]
+    shown = show(m, built_tolerances.spec, node["thickness_m"], node["start_temp_c"], "corner")
+    assert shown.status == 0 and shown.scenario == "worst" and shown.passed
+    pad = m["cells"]["corner"][shown.cell]["done_pad_ticks"]
+    if pad == 0:  # the schedule run is exactly the certified one
+        assert shown.final_log_reduction == pytest.approx(node["min_log_reduction"], abs=2e-6)
+    else:  # a padded done only cooks longer
+        assert shown.final_log_reduction >= node["min_log_reduction"] - 2e-6
