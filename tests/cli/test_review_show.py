@@ -37,12 +37,15 @@ def test_spec_read_back_refuses_a_tampered_spec() -> None:
         spec_of_manifest(m, "t.json")
 
 
+# 1 in = 25.4 mm exactly; degF to degC is (F - 32) * 5 / 9 (both common practice)
 @pytest.mark.parametrize(
     ("thick", "start", "want"),
     [
         ("12 mm", "-18 degC", (0.012, -18.0)),
         ("12mm", "-18C", (0.012, -18.0)),
-        ("0.5 in", "32 degF", (0.0127, 0.0)),  # 1 in = 25.4 mm exactly (common practice)
+        ("0.5 in", "32 degF", (0.0127, 0.0)),
+        ("6.5 mm", "-18 \u00b0C", (0.0065, -18.0)),
+        ("6.5 mm", "41 F", (0.0065, 5.0)),
     ],
 )
 def test_measured_point_reads_the_spec_units(thick: str, start: str, want: tuple) -> None:
@@ -124,3 +127,11 @@ def test_show_under_tolerances_runs_the_worst_scenario(built_tolerances) -> None
         assert shown.final_log_reduction == pytest.approx(node["min_log_reduction"], abs=2e-6)
     else:  # a padded done only cooks longer
         assert shown.final_log_reduction >= node["min_log_reduction"] - 2e-6
+
+
+def test_show_refuses_a_spec_the_table_was_not_built_from() -> None:
+    other = Path(__file__).with_name("tolerance_spec.toml")
+    args = ["show", str(TABLE), "--thickness", "8mm", "--start", "0C", "--spec", str(other)]
+    res = CliRunner().invoke(main, args)
+    assert res.exit_code == 2
+    assert "test_patty.json" in res.stderr and "not built from this spec" in res.stderr

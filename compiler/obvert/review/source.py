@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import dataclasses
 import json
+import re
 import types
 import typing
 from pathlib import Path
@@ -18,6 +19,8 @@ from typing import Any
 from obvert.firmware import ManifestError, canonical_sha256, check_manifest
 from obvert.spec import Spec
 from obvert.spec.units import quantity
+
+_SHORT_TEMP = re.compile(r"^\s*([-+]?(?:\d+\.?\d*|\.\d+)(?:[eE][-+]?\d+)?)\s*([CF])\s*$")
 
 
 class ReviewError(ValueError):
@@ -172,9 +175,8 @@ def measured_point(thickness: str, start: str) -> tuple[float, float]:
     """
     from obvert.spec import SpecError
 
-    start_text = start.strip()
-    if start_text.endswith(("C", "F")) and not start_text.endswith(("degC", "degF")):
-        start_text = start_text[:-1].rstrip() + " deg" + start_text[-1]
+    short = _SHORT_TEMP.match(start)  # "-18C" / "40 F": a bare C or F after the number
+    start_text = f"{short.group(1)} deg{short.group(2)}" if short else start
     try:
         x = quantity(thickness, "--thickness", "length")
         t = quantity(start_text, "--start", "temperature")
