@@ -135,3 +135,27 @@ def test_show_refuses_a_spec_the_table_was_not_built_from() -> None:
     res = CliRunner().invoke(main, args)
     assert res.exit_code == 2
     assert "test_patty.json" in res.stderr and "not built from this spec" in res.stderr
+
+
+def test_every_demo_and_a_measured_food_spec_read_back_from_their_json() -> None:
+    """The spec stored in a manifest (its JSON form) rebuilds to the same spec and hash,
+    for composition and measured (constant and tabulated) foods, platens and tolerances."""
+    from obvert.api import demo_spec
+    from obvert.cli import DEMOS
+    from obvert.spec import loads_spec
+
+    corpus = Path(__file__).parents[1] / "spec_corpus" / "measured_falling_table.toml"
+    rising = corpus.read_text().replace(
+        '[["20 degC", "0.45 W/(m*K)"], ["-5 degC", "1.2 W/(m*K)"]]',
+        '[["-5 degC", "1.2 W/(m*K)"], ["20 degC", "0.45 W/(m*K)"]]',
+    )
+    measured = loads_spec(rising, "measured")
+    assert isinstance(measured.food.measured.conductivity, tuple)
+    specs = [demo_spec(d) for d in DEMOS] + [
+        measured,
+        load_spec(SPEC.with_name("tolerance_spec.toml")),
+    ]
+    for spec in specs:
+        d = json.loads(json.dumps(spec.to_dict()))  # what a manifest holds
+        m = {"spec": d, "spec_hash": canonical_sha256(d)}
+        assert spec_of_manifest(m, spec.name) == spec
