@@ -119,3 +119,31 @@ def test_the_example_in_docs_review_md_reads_and_passes() -> None:
     assert [e.kind for e in prog.bands[0].schedule.events] == ["flip", "flip", "done"]
     (c,) = check_program(spec, prog)
     assert c.safe and c.extension_s == 0.0
+
+
+def test_a_band_is_judged_under_the_tolerance_scenarios() -> None:
+    """Under declared tolerances the worst scenario binds: the extension it needs passes there,
+    and the nominal conditions alone pass it with room to spare."""
+    spec = load_spec(HERE / "tolerance_spec.toml")
+    prog = parse_program(SHORT, spec.appliance.tick_s)
+    (c,) = check_program(spec, prog)
+    assert c.scenario == "worst" and c.corner == (0.010, -18.0)
+    assert not c.safe and c.extension_s is not None and c.extension_s > 0
+    problem = problem_of(spec)
+    fixed = prog.bands[0].schedule.with_done(160.0 + c.extension_s)
+    assert judge_all(problem.cases_at(*c.corner), fixed).passed
+    nominal = problem.case(problem.nominal, *c.corner)
+    assert judge_all((nominal,), fixed).min_log_reduction > 7.0 + c.required_margin_log
+
+
+def test_a_band_no_extension_can_save_is_said_so(tmp_path: Path) -> None:
+    """Flips timed for 10 mm on a 12 mm band: done alone cannot rescue it (still short of the
+    target at twice the done time), and the output says so."""
+    prog = tmp_path / "thick.toml"
+    prog.write_text(SHORT.replace('"10 mm"', '"12 mm"'))
+    res = CliRunner().invoke(
+        main, ["check", str(prog), "--spec", str(HERE / "tolerance_spec.toml")]
+    )
+    assert res.exit_code == 1, res.output
+    assert "FAIL" in res.stdout
+    assert "no extension of done up to twice its time makes this band safe" in res.stdout
