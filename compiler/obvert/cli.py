@@ -313,5 +313,168 @@ def upgrade_cmd(old: Path, out_file: Path) -> None:
     click.echo(f"wrote {out_file} (format version {new['format_version']})")
 
 
+def _table_and_spec(table: Path, spec_file: Path | None) -> tuple[dict[str, Any], Any]:
+    """The manifest of ``table`` and its spec (``spec_file``, or read back from the table)."""
+    from obvert.review import ReviewError, check_spec_matches, read_manifest, spec_of_manifest
+    from obvert.spec import SpecError, load_spec
+
+    try:
+        m = read_manifest(table)
+        if spec_file is None:
+            return m, spec_of_manifest(m, str(table))
+        spec = load_spec(spec_file)
+        check_spec_matches(spec, m, str(table))
+        return m, spec
+    except (ReviewError, SpecError) as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+
+
+_SPEC_OPTION = click.option(
+    "--spec",
+    "spec_file",
+    default=None,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="The spec TOML the table was built from (default: the spec stored in the table).",
+)
+
+
+@main.command("show")
+@click.argument("table", type=click.Path(dir_okay=False, path_type=Path))
+@click.option("--thickness", required=True, help='Measured thickness with its unit, e.g. "12 mm".')
+@click.option("--start", required=True, help='Measured start temperature, e.g. "-18 degC".')
+@click.option(
+    "--rule",
+    type=click.Choice(["corner", "bilinear"]),
+    default="corner",
+    show_default=True,
+    help="Lookup rule of the firmware target (c99: corner, c99_bilinear: bilinear).",
+)
+@_SPEC_OPTION
+def show_cmd(table: Path, thickness: str, start: str, rule: str, spec_file: Path | None) -> None:
+    """Print the schedule TABLE (JSON) gives one measurement, with reference predictions.
+
+    The cold-spot temperature and log reduction at each event come from a reference run of
+    the looked-up schedule at the measured point, in the worst tolerance scenario. Exit 1
+    when the measurement is outside the table's envelope, 2 on a bad file or value.
+    """
+    from obvert.review import ReviewError, measured_point, show, show_text
+
+    m, spec = _table_and_spec(table, spec_file)
+    try:
+        x, t = measured_point(thickness, start)
+        shown = show(m, spec, x, t, rule)
+    except (ReviewError, ValueError) as exc:
+        click.echo(f"error: {table}: {exc}", err=True)
+        sys.exit(2)
+    click.echo(show_text(m, shown))
+    click.echo(f"caution: {CAUTION}")
+    if shown.status != 0:
+        sys.exit(1)
+
+
+@main.command("diff")
+@click.argument("old", type=click.Path(dir_okay=False, path_type=Path))
+@click.argument("new", type=click.Path(dir_okay=False, path_type=Path))
+def diff_cmd(old: Path, new: Path) -> None:
+    """Compare two JSON tables: nodes, cells and spec keys added, removed and changed.
+
+    Lines starting with "!" need review. Exit 0 when nothing needs review (identical, or
+    nodes only longer with no smaller margin and the same event kinds), 1 when something
+    does (a node or cell added or removed, a node shorter, with less margin or other event
+    kinds, a cell with less margin or pad, any spec, tolerance, safety, tick or axis change;
+    docs/review.md), 2 on a bad file.
+    """
+    from obvert.review import ReviewError, diff, diff_text, read_manifest
+
+    try:
+        a, b = read_manifest(old), read_manifest(new)
+    except ReviewError as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+    d = diff(a, b)
+    click.echo(diff_text(d))
+    sys.exit(1 if d.needs_review else 0)
+
+
+@main.command("check")
+@click.argument("program", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--spec",
+    "spec_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Spec TOML: food, appliance, safety target, tolerances and reference settings.",
+)
+@click.option(
+    "--table",
+    "table",
+    default=None,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="A certified JSON table built from the same spec, to compare done times with.",
+)
+@click.option(
+    "--rule",
+    type=click.Choice(["corner", "bilinear"]),
+    default="corner",
+    show_default=True,
+    help="Lookup rule of the table for the comparison.",
+)
+def check_cmd(program: Path, spec_file: Path, table: Path | None, rule: str) -> None:
+    """Check a hand-made cook PROGRAM (TOML bands, docs/review.md) on the reference model.
+
+    Each band is simulated at its thickest and coldest corner under the spec's tolerance
+    scenarios. Exit 0 when every band is safe, 1 when any band is not, 2 on a bad file.
+    """
+    from obvert.review import ReviewError, check_program, check_text, load_program
+    from obvert.spec import SpecError, load_spec
+
+    try:
+        spec = load_spec(spec_file)
+        prog = load_program(program, spec.appliance.tick_s)
+    except (ReviewError, SpecError) as exc:
+        click.echo(f"error: {exc}", err=True)
+        sys.exit(2)
+    m = None
+    if table is not None:
+        m, _ = _table_and_spec(table, spec_file)
+    try:
+        checks = check_program(spec, prog, m, rule)
+    except ValueError as exc:  # e.g. a band outside the food's property range
+        click.echo(f"error: {program}: {exc}", err=True)
+        sys.exit(2)
+    click.echo(check_text(prog, checks))
+    click.echo(f"caution: {CAUTION}")
+    sys.exit(0 if all(c.safe for c in checks) else 1)
+
+
+@main.command("report")
+@click.argument("table", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="Where to write the report (one self-contained HTML file).",
+)
+@_SPEC_OPTION
+def report_cmd(table: Path, out_file: Path, spec_file: Path | None) -> None:
+    """Write a self-contained HTML review report of TABLE (JSON) with plots and a sign-off.
+
+    The same table gives the same bytes. Exit 2 on a bad file.
+    """
+    from obvert.review import report_html
+
+    m, spec = _table_and_spec(table, spec_file)
+    try:
+        data = report_html(m, spec)
+    except ValueError as exc:
+        click.echo(f"error: {table}: {exc}", err=True)
+        sys.exit(2)
+    write_atomically(out_file.parent, {out_file.name: data})
+    click.echo(f"wrote {out_file}")
+    click.echo(f"caution: {CAUTION}")
+
+
 if __name__ == "__main__":  # pragma: no cover
     main()
