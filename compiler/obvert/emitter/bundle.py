@@ -75,6 +75,21 @@ def _tick_us(manifest: Mapping[str, Any]) -> int:
     return tick_us
 
 
+def _appliance_name(manifest: Mapping[str, Any]) -> str:
+    """The spec's appliance name, from which the bundle's model id is derived."""
+    try:
+        name = manifest["spec"]["appliance"]["name"]
+    except (KeyError, TypeError):
+        name = None
+    if not isinstance(name, str) or not name:
+        table = manifest.get("table", {}).get("name")
+        raise EmitError(
+            f"table {table!r}: manifest field spec.appliance.name = {name!r}: a bundle needs "
+            "the appliance name (its model id is derived from it)"
+        )
+    return name
+
+
 def _product_block(manifest: Mapping[str, Any]) -> bytes:
     """Head, axes and node records of one product (layout in docs/bundle.md)."""
     name = manifest["table"]["name"]
@@ -153,7 +168,7 @@ def bundle_bytes(
         raise EmitError(f"{len(manifests)} tables: a bundle holds at most 65535")
     for m in manifests:
         check_manifest(m)
-    appliances = sorted({m["spec"]["appliance"]["name"] for m in manifests})
+    appliances = sorted({_appliance_name(m) for m in manifests})
     ticks = sorted({_tick_us(m) for m in manifests})
     if len(appliances) != 1 or len(ticks) != 1:
         raise EmitError(
