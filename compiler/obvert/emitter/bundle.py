@@ -32,7 +32,7 @@ from obvert.firmware.bundle import (
 from obvert.firmware.lookup import lookup_fixed
 from obvert.firmware.validate import check_manifest
 
-__all__ = ["bundle_bytes", "new_key_pair"]
+__all__ = ["bundle_bytes", "new_key_pair", "signing_key"]
 
 _U32_MAX = 2**32 - 1
 
@@ -54,7 +54,8 @@ def new_key_pair() -> tuple[bytes, bytes]:
     return private, public
 
 
-def _signing_key(private_pem: bytes) -> Any:
+def signing_key(private_pem: bytes) -> Any:
+    """The Ed25519 private key of a PEM text (unencrypted); EmitError when it is not one."""
     from cryptography.hazmat.primitives import serialization
     from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
@@ -193,7 +194,7 @@ def bundle_bytes(
     total = offset + 4 + SIGNATURE_BYTES
     if total > _U32_MAX:
         raise EmitError(f"bundle of {total} bytes: exceeds uint32 sizes")
-    key = _signing_key(private_key_pem) if private_key_pem is not None else None
+    key = signing_key(private_key_pem) if private_key_pem is not None else None
     ident = bytes(8)
     if key is not None:
         from cryptography.hazmat.primitives import serialization
