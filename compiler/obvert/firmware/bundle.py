@@ -228,9 +228,7 @@ def _head(data: bytes) -> int:
             f"size = {size} bytes: a bundle has at least {HEADER_BYTES + TRAILER_BYTES}",
         )
     if data[:4] != BUNDLE_MAGIC:
-        raise _fail(
-            BundleStatus.BAD_MAGIC, f"magic = {data[:4]!r}: expected {BUNDLE_MAGIC!r}"
-        )
+        raise _fail(BundleStatus.BAD_MAGIC, f"magic = {data[:4]!r}: expected {BUNDLE_MAGIC!r}")
     version = _u16(data, 4)
     if version != BUNDLE_VERSION:
         raise _fail(
@@ -289,9 +287,7 @@ def _ascending(values: list[int], field: str) -> None:
 def _node(data: bytes, at: int, width: int, field: str) -> BundleNode:
     count = _u16(data, at)
     if not 1 <= count <= width:
-        raise _fail(
-            BundleStatus.OUT_OF_RANGE, f"{field}.n_events = {count}: allowed 1 to {width}"
-        )
+        raise _fail(BundleStatus.OUT_OF_RANGE, f"{field}.n_events = {count}: allowed 1 to {width}")
     if _u16(data, at + 2) != 0:
         raise _fail(BundleStatus.BAD_FIELD, f"{field}.reserved = {_u16(data, at + 2)}: must be 0")
     events = []
@@ -357,7 +353,12 @@ def _product(data: bytes, at: int, size: int, product_id: int, field: str) -> Bu
         for n in range(n_x * n_t)
     )
     return BundleProduct(
-        product_id, envelope, tuple(axis_x), tuple(axis_t), width, nodes  # type: ignore[arg-type]
+        product_id,
+        envelope,
+        tuple(axis_x),
+        tuple(axis_t),
+        width,
+        nodes,  # type: ignore[arg-type]
     )
 
 
