@@ -221,3 +221,14 @@ def test_new_key_pairs_sign_and_verify():
     data = bundle_bytes([_manifest()], table_version=1, private_key_pem=private)
     assert verify_bundle(data, public).signed
     assert new_key_pair()[0] != private
+
+
+def test_docs_carry_the_caution_and_every_status():
+    from obvert.about import CAUTION
+
+    docs = Path(__file__).resolve().parents[2] / "docs" / "bundle.md"
+    text = docs.read_text(encoding="utf-8")
+    flat = " ".join(line.lstrip("> ").strip() for line in text.splitlines())
+    assert " ".join(CAUTION.split()) in " ".join(flat.split())
+    for status in BundleStatus:
+        assert f"| `{status.name}` | {int(status)} |" in text
