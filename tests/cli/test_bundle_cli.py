@@ -162,8 +162,11 @@ def test_build_writes_a_signed_bundle_that_verifies(tmp_path, keys):
     out = tmp_path / "out"
     args = ["build", str(SPEC), "--out", str(out), "--quiet", "--target", "json"]
     key = str(keys / KEY_FILE)
-    res = _invoke(*args, "--table-version", "4", "--sign-key", key)
+    loader = ("--target", "c99_bundle_loader")
+    res = _invoke(*args, *loader, "--table-version", "4", "--sign-key", key)
     assert res.exit_code == 0, res.stderr
+    assert "TEST_PATTY_BUNDLE_APPLIANCE_MODEL" in (out / "test_patty_bundle.h").read_text()
+    assert "test_patty_bundle_lookup(" in (out / "test_patty_bundle.c").read_text()
     bundle = out / "test_patty.bundle"
     assert f"wrote {bundle}" in res.stdout and "UNSIGNED" not in res.stderr
     m = json.loads((out / "test_patty.json").read_text(encoding="utf-8"))
