@@ -336,7 +336,7 @@ def _product(data: bytes, at: int, size: int, product_id: int, field: str) -> Bu
             BundleStatus.OUT_OF_RANGE,
             f"{field}.size = {size}: its counts need exactly {want} bytes",
         )
-    envelope = tuple(_i32(data, at + 8 + 4 * k) for k in range(4))
+    envelope = (_i32(data, at + 8), _i32(data, at + 12), _i32(data, at + 16), _i32(data, at + 20))
     axis_x = [_i32(data, at + PRODUCT_HEAD_BYTES + 4 * k) for k in range(n_x)]
     axis_t = [_i32(data, at + PRODUCT_HEAD_BYTES + 4 * (n_x + k)) for k in range(n_t)]
     _ascending(axis_x, f"{field}.thickness_um")
@@ -358,7 +358,7 @@ def _product(data: bytes, at: int, size: int, product_id: int, field: str) -> Bu
         tuple(axis_x),
         tuple(axis_t),
         width,
-        nodes,  # type: ignore[arg-type]
+        nodes,
     )
 
 
