@@ -415,6 +415,72 @@ def keygen_cmd(out_dir: Path) -> None:
     click.echo(f"wrote {out_dir / PUBLIC_KEY_FILE} (public: provision it in the appliances)")
 
 
+@main.command("bundle")
+@click.argument("tables", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="The bundle file to write.",
+)
+@click.option(
+    "--table-version",
+    required=True,
+    type=click.IntRange(0, 2**32 - 1),
+    help="Table version of the bundle (uint32; appliances accept only a newer one).",
+)
+@click.option(
+    "--sign-key",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Ed25519 private key (PEM) that signs the bundle; without it the bundle is unsigned.",
+)
+def bundle_cmd(
+    tables: tuple[Path, ...], out_file: Path, table_version: int, sign_key: Path | None
+) -> None:
+    """Put several built tables (JSON manifests, one per product) into one bundle.
+
+    All tables must be for the same appliance and tick; each product's id is derived from its
+    table name (docs/bundle.md). The C loader answers lookups by product id from the bundle.
+    """
+    import json
+
+    from obvert.emitter import EmitError
+    from obvert.emitter.bundle import bundle_bytes
+    from obvert.firmware import ManifestError, check_manifest
+    from obvert.spec import SpecError
+
+    try:
+        key_pem = _bundle_key(table_version, sign_key)
+    except SpecError as exc:
+        click.echo(f"error: {exc}; nothing was written", err=True)
+        sys.exit(2)
+    manifests = []
+    for path in tables:
+        try:
+            m = json.loads(_read(path, "table").decode("utf-8"))
+            check_manifest(m)
+        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+            click.echo(f"error: table {path}: not a JSON table ({exc})", err=True)
+            sys.exit(2)
+        except ManifestError as exc:
+            click.echo(f"error: table {path}: {exc}", err=True)
+            sys.exit(2)
+        manifests.append(m)
+    try:
+        data = bundle_bytes(manifests, table_version=table_version, private_key_pem=key_pem)
+    except (EmitError, ManifestError) as exc:
+        click.echo(f"error: {exc}; nothing was written", err=True)
+        sys.exit(2)
+    write_atomically(out_file.parent, {out_file.name: data})
+    signed = "signed" if key_pem is not None else "UNSIGNED"
+    click.echo(
+        f"wrote {out_file} ({len(manifests)} products, table version {table_version}, {signed})"
+    )
+    click.echo(f"caution: {CAUTION}")
+
+
 def _read(path: Path, what: str) -> bytes:
     """Bytes of ``path``; exit 2 naming the file and the problem when it cannot be read."""
     try:

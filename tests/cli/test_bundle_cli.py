@@ -178,3 +178,63 @@ def test_build_writes_a_signed_bundle_that_verifies(tmp_path, keys):
     assert res.exit_code == 0 and "UNSIGNED" in res.stderr
     assert _verify(bundle, keys).exit_code == 1
     assert _invoke("verify", str(bundle), "--allow-unsigned").exit_code == 0
+
+
+def _cells_manifest_module():
+    import importlib.util
+    import sys
+
+    name = "obvert_tests_cells_manifest"
+    if name not in sys.modules:
+        path = Path(__file__).resolve().parents[1] / "c" / "manifests.py"
+        spec = importlib.util.spec_from_file_location(name, path)
+        module = importlib.util.module_from_spec(spec)
+        sys.modules[name] = module
+        spec.loader.exec_module(module)
+    return sys.modules[name]
+
+
+def test_bundle_puts_several_tables_into_one_bundle(tmp_path, keys):
+    """The real table and two synthetic products (invented numbers) for the same appliance."""
+    from obvert.firmware import canonical_json
+
+    real = json.loads(REAL.read_text(encoding="utf-8"))
+    cells = _cells_manifest_module().cells_manifest
+    paths = [REAL]
+    for name in ("brinecliff_slider", "brinecliff_double"):
+        m = cells(name)
+        m["spec"]["appliance"] = {"name": real["spec"]["appliance"]["name"]}
+        path = tmp_path / f"{name}.json"
+        path.write_bytes(canonical_json(m))
+        paths.append(path)
+    out = tmp_path / "catalogue.bundle"
+    key = str(keys / KEY_FILE)
+    args = ["bundle", *map(str, paths), "--out", str(out), "--table-version", "9"]
+    res = _invoke(*args, "--sign-key", key)
+    assert res.exit_code == 0, res.stderr
+    assert "3 products, table version 9, signed" in res.stdout
+    res = _verify(out, keys)
+    assert res.exit_code == 0 and "products: 3" in res.stdout
+    for name in ("test_patty", "brinecliff_slider", "brinecliff_double"):
+        assert f"product 0x{name_id(name):08x}" in res.stdout
+    manifests = [json.loads(p.read_text(encoding="utf-8")) for p in paths]
+    pem = (keys / KEY_FILE).read_bytes()
+    assert out.read_bytes() == bundle_bytes(manifests, table_version=9, private_key_pem=pem)
+
+
+def test_bundle_refuses_bad_tables_naming_the_file(tmp_path):
+    bad = tmp_path / "bad.json"
+    bad.write_text("{", encoding="utf-8")
+    out = tmp_path / "x.bundle"
+    res = _invoke("bundle", str(bad), "--out", str(out), "--table-version", "1")
+    assert res.exit_code == 2 and str(bad) in res.stderr and "not a JSON table" in res.stderr
+    res = _invoke("bundle", str(REAL), str(REAL), "--out", str(out), "--table-version", "1")
+    assert res.exit_code == 2 and "same product id" in res.stderr
+    other = json.loads(REAL.read_text(encoding="utf-8"))
+    other["table"]["name"] = "second_patty"
+    other["spec"]["appliance"]["name"] = "a second griddle"
+    second = tmp_path / "second.json"
+    second.write_text(json.dumps(other), encoding="utf-8")
+    res = _invoke("bundle", str(REAL), str(second), "--out", str(out), "--table-version", "1")
+    assert res.exit_code == 2 and "one appliance model" in res.stderr
+    assert not out.exists()
