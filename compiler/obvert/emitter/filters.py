@@ -12,8 +12,6 @@ from typing import Any
 
 import numpy as np
 
-from obvert.firmware.bundle import name_id
-
 __all__ = [
     "FILTERS",
     "c_axis",
@@ -141,13 +139,7 @@ def c_string(text: Any) -> str:
     return '"' + "".join(out) + '"'
 
 
-def name_id_of(text: Any) -> int:
-    """32-bit id of a name (appliance model, product), as a bundle stores it."""
-    return name_id(str(text))
-
-
 FILTERS = {
-    "name_id": name_id_of,
     "c_axis": c_axis,
     "c_comment": c_comment,
     "c_comment_line": c_comment_line,
