@@ -436,8 +436,20 @@ def keygen_cmd(out_dir: Path) -> None:
     default=None,
     help="Ed25519 private key (PEM) that signs the bundle; without it the bundle is unsigned.",
 )
+@click.option(
+    "--c-catalogue",
+    "catalogue",
+    metavar="NAME",
+    default=None,
+    help="Also write NAME.h and NAME.c beside the bundle: the bundle compiled in as const data "
+    "with the loader and NAME_catalogue_lookup(product_id, ...).",
+)
 def bundle_cmd(
-    tables: tuple[Path, ...], out_file: Path, table_version: int, sign_key: Path | None
+    tables: tuple[Path, ...],
+    out_file: Path,
+    table_version: int,
+    sign_key: Path | None,
+    catalogue: str | None,
 ) -> None:
     """Put several built tables (JSON manifests, one per product) into one bundle.
 
@@ -469,11 +481,26 @@ def bundle_cmd(
             sys.exit(2)
         manifests.append(m)
     try:
-        data = bundle_bytes(manifests, table_version=table_version, private_key_pem=key_pem)
+        if catalogue is None:
+            files = {
+                out_file.name: bundle_bytes(
+                    manifests, table_version=table_version, private_key_pem=key_pem
+                )
+            }
+        else:
+            from obvert.emitter.catalogue import catalogue_files
+
+            files = catalogue_files(
+                catalogue, manifests, table_version=table_version, private_key_pem=key_pem
+            )
+            files[out_file.name] = files.pop(f"{catalogue}.bundle")
     except (EmitError, ManifestError) as exc:
         click.echo(f"error: {exc}; nothing was written", err=True)
         sys.exit(2)
-    write_atomically(out_file.parent, {out_file.name: data})
+    write_atomically(out_file.parent, files)
+    for name in sorted(files):
+        if name != out_file.name:
+            click.echo(f"wrote {out_file.parent / name}")
     signed = "signed" if key_pem is not None else "UNSIGNED"
     click.echo(
         f"wrote {out_file} ({len(manifests)} products, table version {table_version}, {signed})"

@@ -220,6 +220,16 @@ def test_bundle_puts_several_tables_into_one_bundle(tmp_path, keys):
     manifests = [json.loads(p.read_text(encoding="utf-8")) for p in paths]
     pem = (keys / KEY_FILE).read_bytes()
     assert out.read_bytes() == bundle_bytes(manifests, table_version=9, private_key_pem=pem)
+    res = _invoke(*args, "--sign-key", key, "--c-catalogue", "line_menu")
+    assert res.exit_code == 0, res.stderr
+    assert f"wrote {tmp_path / 'line_menu.c'}" in res.stdout
+    header = (tmp_path / "line_menu.h").read_text(encoding="utf-8")
+    assert (
+        f"#define LINE_MENU_PRODUCT_BRINECLIFF_SLIDER 0x{name_id('brinecliff_slider'):08X}UL"
+        in (header)
+    )
+    assert "line_menu_catalogue_lookup(" in (tmp_path / "line_menu.c").read_text(encoding="utf-8")
+    assert out.read_bytes() == bundle_bytes(manifests, table_version=9, private_key_pem=pem)
 
 
 def test_bundle_refuses_bad_tables_naming_the_file(tmp_path):
