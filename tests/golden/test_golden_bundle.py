@@ -53,3 +53,12 @@ def test_synthetic_catalogue_bundle_equals_golden_file(make_cells_manifest):
 
 def test_bundle_loader_equals_golden_file(real_manifest):
     _compare(emit(real_manifest, load_target("c99_bundle_loader")), GOLDEN / "c99_bundle_loader")
+
+
+def test_catalogue_equals_golden_files(make_cells_manifest):
+    from obvert.emitter.catalogue import catalogue_files
+
+    products = [make_cells_manifest("synthetic_cells"), make_cells_manifest("synthetic_grill")]
+    for m in products:
+        m["spec"]["appliance"] = {"name": "Brinecliff line griddle"}
+    _compare(catalogue_files("brinecliff_menu", products, table_version=7), GOLDEN / "catalogue")
