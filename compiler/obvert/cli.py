@@ -1,7 +1,8 @@
 """Command line: a thin layer that parses, calls the pure core, prints and writes files.
 
 Exit status of ``obvert build``: 0 built; 2 bad input (nothing written); 1 a node could not
-be planned or certified (nothing written).
+be planned or certified (nothing written). ``obvert verify``: 0 the bundle passes; 1 it is
+refused (the reason printed); 2 a file cannot be read or the key is not a key.
 """
 
 from __future__ import annotations
@@ -24,14 +25,22 @@ from obvert.about import CAUTION, __version__
 DEMOS = ("clamshell", "griddle", "griddle_line")
 
 
-def write_atomically(out_dir: Path, files: dict[str, bytes]) -> None:
-    """Write every file or none: stage in a temporary folder, then rename into place."""
+def write_atomically(
+    out_dir: Path, files: dict[str, bytes], private: frozenset[str] = frozenset()
+) -> None:
+    """Write every file or none: stage in a temporary folder, then rename into place.
+
+    Files named in ``private`` are made readable by the owner only (mode 0600) before they
+    appear under their names.
+    """
     out_dir.mkdir(parents=True, exist_ok=True)
     with tempfile.TemporaryDirectory(dir=out_dir, prefix=".obvert-") as tmp:
         staged = []
         for name, data in sorted(files.items()):
             path = Path(tmp) / name
             path.write_bytes(data)
+            if name in private:
+                path.chmod(0o600)
             staged.append((path, out_dir / name))
         for src, dst in staged:
             os.replace(src, dst)
@@ -114,6 +123,34 @@ def _profiles(given: tuple[str, ...], spec: Any) -> list[Any]:
         field = "--target" if given else "outputs.targets"
         raise SpecError(field, names, f"targets that write different files ({exc})") from None
     return profiles
+
+
+def _bundle_key(table_version: int | None, sign_key: Path | None) -> bytes | None:
+    """The signing key's PEM bytes, checked before any work (None: no key given).
+
+    Raises
+    ------
+    SpecError
+        ``--sign-key`` without ``--table-version``, or a key file that cannot be read or is
+        not an unencrypted Ed25519 private key in PEM.
+    """
+    from obvert.emitter import EmitError
+    from obvert.emitter.bundle import signing_key
+    from obvert.spec import SpecError
+
+    if sign_key is None:
+        return None
+    if table_version is None:
+        raise SpecError("--sign-key", str(sign_key), "given together with --table-version")
+    try:
+        pem = sign_key.read_bytes()
+    except OSError as exc:
+        raise SpecError("--sign-key", str(sign_key), f"a readable file ({exc.strerror})") from None
+    try:
+        signing_key(pem)
+    except EmitError as exc:
+        raise SpecError("--sign-key", str(sign_key), f"an Ed25519 private key ({exc})") from None
+    return pem
 
 
 class _ProgressLine:
@@ -212,6 +249,20 @@ def main() -> None:
     help="Run the work on a Dask distributed cluster at ADDRESS (e.g. tcp://10.0.0.5:8786) "
     "instead of local processes; the output is the same byte for byte.",
 )
+@click.option(
+    "--table-version",
+    type=click.IntRange(0, 2**32 - 1),
+    default=None,
+    help="Also write <table>.bundle, a field-update bundle with this table version (uint32; "
+    "appliances accept only a newer one). Unsigned without --sign-key.",
+)
+@click.option(
+    "--sign-key",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Ed25519 private key (PEM, from 'obvert keygen') that signs the bundle; needs "
+    "--table-version.",
+)
 @click.option("--quiet", is_flag=True, help="Do not print progress.")
 def build_cmd(
     spec_file: Path | None,
@@ -220,6 +271,8 @@ def build_cmd(
     jobs: int,
     demo: str,
     scheduler: str | None,
+    table_version: int | None,
+    sign_key: Path | None,
     quiet: bool,
 ) -> None:
     """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
@@ -238,6 +291,7 @@ def build_cmd(
         if problem:
             raise SpecError("--out", str(out_dir), f"a folder that can be written ({problem})")
         warnings = budget_check(spec, profiles)
+        key_pem = _bundle_key(table_version, sign_key)
     except (SpecError, ProfileError, EmitError) as exc:
         click.echo(f"error: {exc}; nothing was built", err=True)
         sys.exit(2)
@@ -274,10 +328,22 @@ def build_cmd(
         sys.exit(143)
     try:
         files = emit(table, profiles)
+        if table_version is not None:
+            from obvert.emitter.bundle import bundle_bytes
+
+            m = manifest(table)
+            data = bundle_bytes([m], table_version=table_version, private_key_pem=key_pem)
+            files[f"{m['table']['name']}.bundle"] = data
     except (EmitError, ManifestError) as exc:
         click.echo(f"error: {exc}", err=True)
         sys.exit(2)
     click.echo(summary(manifest(table)))
+    if table_version is not None and key_pem is None:
+        click.echo(
+            f"note: the bundle (table version {table_version}) is UNSIGNED: appliances and "
+            "'obvert verify' refuse it unless told to accept unsigned bundles",
+            err=True,
+        )
     write_atomically(out_dir, files)
     for name in sorted(files):
         click.echo(f"wrote {out_dir / name}")
@@ -474,6 +540,233 @@ def report_cmd(table: Path, out_file: Path, spec_file: Path | None) -> None:
     write_atomically(out_file.parent, {out_file.name: data})
     click.echo(f"wrote {out_file}")
     click.echo(f"caution: {CAUTION}")
+
+
+KEY_FILE = "bundle_signing_key.pem"
+PUBLIC_KEY_FILE = "bundle_signing_key.pub.pem"
+
+
+@main.command("keygen")
+@click.option(
+    "--out",
+    "out_dir",
+    required=True,
+    type=click.Path(file_okay=False, path_type=Path),
+    help=f"Folder for {KEY_FILE} (private, mode 0600) and {PUBLIC_KEY_FILE}.",
+)
+def keygen_cmd(out_dir: Path) -> None:
+    """Make an Ed25519 key pair for signing bundles; never overwrites a key."""
+    from obvert.emitter.bundle import new_key_pair
+
+    existing = [name for name in (KEY_FILE, PUBLIC_KEY_FILE) if (out_dir / name).exists()]
+    if existing:
+        click.echo(
+            f"error: {out_dir / existing[0]} exists; keygen never overwrites a key (move it "
+            "away or choose another --out)",
+            err=True,
+        )
+        sys.exit(2)
+    problem = _writable_folder(out_dir)
+    if problem:
+        click.echo(f"error: --out {str(out_dir)!r}: cannot write there ({problem})", err=True)
+        sys.exit(2)
+    private, public = new_key_pair()
+    write_atomically(
+        out_dir, {KEY_FILE: private, PUBLIC_KEY_FILE: public}, private=frozenset({KEY_FILE})
+    )
+    click.echo(f"wrote {out_dir / KEY_FILE} (private: keep it secret, off the appliances)")
+    click.echo(f"wrote {out_dir / PUBLIC_KEY_FILE} (public: provision it in the appliances)")
+
+
+@main.command("bundle")
+@click.argument("tables", nargs=-1, required=True, type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--out",
+    "out_file",
+    required=True,
+    type=click.Path(dir_okay=False, path_type=Path),
+    help="The bundle file to write.",
+)
+@click.option(
+    "--table-version",
+    required=True,
+    type=click.IntRange(0, 2**32 - 1),
+    help="Table version of the bundle (uint32; appliances accept only a newer one).",
+)
+@click.option(
+    "--sign-key",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Ed25519 private key (PEM) that signs the bundle; without it the bundle is unsigned.",
+)
+@click.option(
+    "--c-catalogue",
+    "catalogue",
+    metavar="NAME",
+    default=None,
+    help="Also write NAME.h and NAME.c beside the bundle: the bundle compiled in as const data "
+    "with the loader and NAME_catalogue_lookup(product_id, ...).",
+)
+def bundle_cmd(
+    tables: tuple[Path, ...],
+    out_file: Path,
+    table_version: int,
+    sign_key: Path | None,
+    catalogue: str | None,
+) -> None:
+    """Put several built tables (JSON manifests, one per product) into one bundle.
+
+    All tables must be for the same appliance and tick; each product's id is derived from its
+    table name (docs/bundle.md). The C loader answers lookups by product id from the bundle.
+    """
+    import json
+
+    from obvert.emitter import EmitError
+    from obvert.emitter.bundle import bundle_bytes
+    from obvert.firmware import ManifestError, check_manifest
+    from obvert.spec import SpecError
+
+    try:
+        key_pem = _bundle_key(table_version, sign_key)
+    except SpecError as exc:
+        click.echo(f"error: {exc}; nothing was written", err=True)
+        sys.exit(2)
+    manifests = []
+    for path in tables:
+        try:
+            m = json.loads(_read(path, "table").decode("utf-8"))
+            check_manifest(m)
+        except (UnicodeDecodeError, json.JSONDecodeError) as exc:
+            click.echo(f"error: table {path}: not a JSON table ({exc})", err=True)
+            sys.exit(2)
+        except ManifestError as exc:
+            click.echo(f"error: table {path}: {exc}", err=True)
+            sys.exit(2)
+        manifests.append(m)
+    try:
+        if catalogue is None:
+            files = {
+                out_file.name: bundle_bytes(
+                    manifests, table_version=table_version, private_key_pem=key_pem
+                )
+            }
+        else:
+            from obvert.emitter.catalogue import catalogue_files
+
+            files = catalogue_files(
+                catalogue, manifests, table_version=table_version, private_key_pem=key_pem
+            )
+            files[out_file.name] = files.pop(f"{catalogue}.bundle")
+    except (EmitError, ManifestError) as exc:
+        click.echo(f"error: {exc}; nothing was written", err=True)
+        sys.exit(2)
+    write_atomically(out_file.parent, files)
+    for name in sorted(files):
+        if name != out_file.name:
+            click.echo(f"wrote {out_file.parent / name}")
+    signed = "signed" if key_pem is not None else "UNSIGNED"
+    click.echo(
+        f"wrote {out_file} ({len(manifests)} products, table version {table_version}, {signed})"
+    )
+    click.echo(f"caution: {CAUTION}")
+
+
+def _read(path: Path, what: str) -> bytes:
+    """Bytes of ``path``; exit 2 naming the file and the problem when it cannot be read."""
+    try:
+        return path.read_bytes()
+    except OSError as exc:
+        click.echo(f"error: {what} {path}: cannot read it ({exc.strerror})", err=True)
+        sys.exit(2)
+
+
+@main.command("verify")
+@click.argument("bundle_file", type=click.Path(dir_okay=False, path_type=Path))
+@click.option(
+    "--public-key",
+    type=click.Path(dir_okay=False, path_type=Path),
+    default=None,
+    help="Ed25519 public key (PEM) the bundle must be signed with.",
+)
+@click.option("--allow-unsigned", is_flag=True, help="Accept a bundle whose header says unsigned.")
+@click.option(
+    "--installed-table-version",
+    type=click.IntRange(0, 2**32 - 1),
+    default=None,
+    help="Refuse the bundle unless its table version is above this one.",
+)
+@click.option(
+    "--appliance",
+    default=None,
+    help="Appliance name (as in the spec); refuse a bundle made for another model.",
+)
+def verify_cmd(
+    bundle_file: Path,
+    public_key: Path | None,
+    allow_unsigned: bool,
+    installed_table_version: int | None,
+    appliance: str | None,
+) -> None:
+    """Check a bundle (layout, CRC-32, Ed25519 signature) and print what it holds.
+
+    Exit 0 when it passes, 1 when it is refused (the reason is printed), 2 when a file
+    cannot be read or the key is not an Ed25519 public key.
+    """
+    from obvert.firmware.bundle import BundleError, BundleStatus, name_id, verify_bundle
+
+    data = _read(bundle_file, "bundle")
+    key = _read(public_key, "public key") if public_key is not None else None
+    model = name_id(appliance) if appliance is not None else None
+    try:
+        bundle = verify_bundle(
+            data,
+            key,
+            allow_unsigned=allow_unsigned,
+            installed_table_version=installed_table_version,
+            appliance_model=model,
+        )
+    except BundleError as exc:
+        if exc.status is BundleStatus.WRONG_KEY and key is None:
+            click.echo(f"error: {bundle_file} is signed: give --public-key to check it", err=True)
+            sys.exit(2)
+        hint = ""
+        if exc.status is BundleStatus.UNSIGNED:
+            hint = " (use --allow-unsigned to accept it)"
+        click.echo(
+            f"error: {bundle_file}: refused, {exc.status.name.lower().replace('_', ' ')}: "
+            f"{exc}{hint}",
+            err=True,
+        )
+        sys.exit(1)
+    except ValueError as exc:
+        click.echo(f"error: public key {public_key}: {exc}", err=True)
+        sys.exit(2)
+    for line in _bundle_lines(bundle_file, len(data), bundle, appliance):
+        click.echo(line)
+    click.echo(f"caution: {CAUTION}")
+
+
+def _bundle_lines(path: Path, size: int, bundle: Any, appliance: str | None) -> list[str]:
+    """What ``obvert verify`` prints about a bundle that passed."""
+    signed = f"signed, key id {bundle.key_id.hex()}" if bundle.signed else "UNSIGNED"
+    model = f"0x{bundle.appliance_model:08x}" + (f" ({appliance})" if appliance else "")
+    lines = [
+        f"bundle {path}: {size} bytes, bundle format version {bundle.format_version}, {signed}, "
+        f"crc32 0x{bundle.crc:08x}: OK",
+        f"table version: {bundle.table_version}",
+        f"appliance model: {model}",
+        f"tick: {bundle.tick_us} us",
+        f"products: {len(bundle.products)}",
+    ]
+    for p in bundle.products:
+        x_lo, x_hi, t_lo, t_hi = p.envelope
+        lines.append(
+            f"  product 0x{p.product_id:08x}: envelope thickness {x_lo} to {x_hi} um, start "
+            f"temperature {t_lo} to {t_hi} (0.01 degC); axes {len(p.thickness_um)} x "
+            f"{len(p.start_temp_cc)}, {len(p.nodes)} nodes, up to {p.max_events} events"
+        )
+    lines.append(f"nodes: {bundle.node_count}")
+    return lines
 
 
 if __name__ == "__main__":  # pragma: no cover

@@ -18,11 +18,15 @@ import jinja2
 from obvert.emitter.context import c_context
 from obvert.emitter.errors import EmitError
 from obvert.emitter.filters import FILTERS
+from obvert.emitter.loader import loader_context
 from obvert.emitter.profile import C_HEADER_TEMPLATE, OutputSpec, TargetProfile
 from obvert.firmware.canonical import CanonicalError, canonical_json
 from obvert.firmware.validate import ManifestError, check_manifest
 
-__all__ = ["emit", "environment", "render_template"]
+__all__ = ["LOADER_HEADER_TEMPLATE", "emit", "environment", "render_template"]
+
+#: Template of the bundle loader's header (its ``.c`` file includes it by its output name).
+LOADER_HEADER_TEMPLATE = "bundle/loader.h.j2"
 
 
 def _finalize(value: Any) -> str:
@@ -78,6 +82,15 @@ def _context(
 ) -> dict[str, Any]:
     """Context for a template: C templates get the C view; every template the manifest."""
     context: dict[str, Any] = {"manifest": manifest, "target": target}
+    if spec.template is not None and spec.template.startswith("bundle/"):
+        headers = [o for o in target.outputs if o.template == LOADER_HEADER_TEMPLATE]
+        if not headers:
+            raise EmitError(
+                f"target {target.name!r}: template {spec.template!r} needs an output with "
+                f"template {LOADER_HEADER_TEMPLATE!r} (the loader's header)"
+            )
+        header = headers[0].filename.format(**names)
+        context.update(loader_context(manifest, target, header))
     if spec.template is not None and spec.template.startswith("c/"):
         headers = [o for o in target.outputs if o.template == C_HEADER_TEMPLATE]
         header = headers[0].filename.format(**names) if headers else None
