@@ -301,7 +301,7 @@ def check_program(
 
 def check_text(program: HandProgram, checks: tuple[BandCheck, ...]) -> str:
     """Plain-text view of the checks of ``program``."""
-    lines = [f"hand program {program.name}: {len(checks)} band(s), each at its worst corner"]
+    lines = [f"{program.name}: {len(checks)} band(s), each at its worst corner"]
     for i, c in enumerate(checks):
         b = c.band
         ev = ", ".join(f"{e.kind}@{e.at_s:.1f}" for e in b.schedule.events)
@@ -329,14 +329,18 @@ def check_text(program: HandProgram, checks: tuple[BandCheck, ...]) -> str:
                 f"  extend done by {c.extension_s:.1f} s (to {done:.1f} s) to make it safe"
             )
         if c.table_done_s is not None:
-            ours = b.schedule.done_s + (c.extension_s or 0.0)
-            what = "this band" if not c.extension_s else "this band once extended"
+            head = f"  the certified table runs done at {c.table_done_s:.1f} s at this corner"
             if c.extension_s is None:
-                what = "this band as written (it cannot be made safe)"
-            lines.append(
-                f"  the certified table runs done at {c.table_done_s:.1f} s at this corner: "
-                f"it saves {ours - c.table_done_s:+.1f} s against {what}"
-            )
+                lines.append(f"{head}, safely (this band cannot be made safe by extending done)")
+            else:
+                ours = b.schedule.done_s + c.extension_s
+                what = "this band" if not c.extension_s else "this band once extended"
+                gain = ours - c.table_done_s
+                lines.append(
+                    f"{head}: {gain:.1f} s sooner than {what}"
+                    if gain >= 0.0
+                    else f"{head}: {-gain:.1f} s later than {what}"
+                )
         elif c.table_note:
             lines.append(f"  no table comparison: {c.table_note}")
     bad = sum(not c.safe for c in checks)
