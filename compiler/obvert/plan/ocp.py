@@ -21,7 +21,8 @@ from obvert.plan._nlp import DWELL_SCALE_S, Transcription, phase_specs
 from obvert.plan.collocation import BlockCache, Grid, PhaseBlock
 from obvert.plan.modifier import Modifier
 from obvert.plan.problem import Member, PlanError, Requirement, Solution, predict
-from obvert.plan.schedule import Event, Schedule, Surroundings
+from obvert.plan.schedule import Schedule, Surroundings
+from obvert.plan.schedule import Sequence as EventSequence
 from obvert.thermal.boundary import FaceBC
 from obvert.thermal.spectral import SpectralModel
 
@@ -195,11 +196,10 @@ class Planner:
     # -- public ----------------------------------------------------------------------
     def lower_bounds(self, kinds: tuple[str, ...]) -> np.ndarray:
         """Smallest allowed dwell before each event, s (minimum gap less any flip air time)."""
-        lb = [self.min_gap_s]
-        for prev in kinds:
-            air = self.env.flip_air_s if prev == "flip" else 0.0
-            lb.append(max(self.min_gap_s - air, 0.0))
-        return np.array(lb)
+        return self._sequence(kinds).lower_bounds()
+
+    def _sequence(self, kinds: tuple[str, ...]) -> EventSequence:
+        return EventSequence(kinds, self.min_gap_s, self.env.flip_air_s)
 
     def feasible_guess(
         self, kinds: tuple[str, ...], start_temp_c: float, mod: Modifier | None = None
@@ -401,14 +401,8 @@ class Planner:
         )
 
     def schedule_of(self, kinds: tuple[str, ...], dwell: np.ndarray) -> Schedule:
-        """Event times from the dwell before each event, s."""
-        events, t, closed = [], 0.0, False
-        for k, kind in enumerate((*kinds, "done")):
-            t += float(dwell[k])
-            if kind == "done" and closed:
-                events.append(Event("platen_open", t))  # the platen rises when the food is done
-            events.append(Event(kind, t))
-            if kind == "flip":
-                t += self.env.flip_air_s
-            closed = {"platen_close": True, "platen_open": False}.get(kind, closed)
-        return Schedule(tuple(events))
+        """Event times from the dwell before each event and before done, s."""
+        seq = self._sequence(kinds)
+        head = [float(v) for v in dwell[: len(kinds)]]
+        _, t_end, _ = seq.events(head)
+        return seq.schedule(head, t_end + float(dwell[len(kinds)]))

@@ -9,12 +9,15 @@ air and lands mirrored.
 
 from __future__ import annotations
 
+from collections.abc import Sequence as Seq
 from dataclasses import dataclass
+
+import numpy as np
 
 from obvert.firmware.contract import EVENT_CODES
 from obvert.thermal.boundary import Phase, Surroundings
 
-__all__ = ["EVENT_CODES", "Event", "Schedule", "Surroundings", "phases_for"]
+__all__ = ["EVENT_CODES", "Event", "Schedule", "Sequence", "Surroundings", "phases_for"]
 
 
 @dataclass(frozen=True)
@@ -75,6 +78,80 @@ class Schedule:
         if head and head[-1].kind == "platen_open" and head[-1].at_s == self.done_s:
             head[-1] = Event("platen_open", done_s)
         return Schedule((*head, Event("done", done_s)))
+
+
+@dataclass(frozen=True)
+class Sequence:
+    """An event sequence on one appliance, and what the appliance allows between events.
+
+    Attributes
+    ----------
+    kinds : tuple of str
+        Events before done, in order (``flip``, ``platen_close``, ``platen_open``).
+    min_gap_s : float
+        Least time on the plate between loading or landing and the next event, s; after a
+        flip the air time counts towards it.
+    flip_air_s : float
+        Time a flipped food spends in the air, s.
+    """
+
+    kinds: tuple[str, ...]
+    min_gap_s: float
+    flip_air_s: float
+
+    @property
+    def n_free(self) -> int:
+        """Dwells searched (one before each event before done)."""
+        return len(self.kinds)
+
+    def lower_bounds(self) -> np.ndarray:
+        """Least dwell before each event and before done, s (shape ``n_free + 1``)."""
+        lb = [self.min_gap_s]
+        for prev in self.kinds:
+            air = self.flip_air_s if prev == "flip" else 0.0
+            lb.append(max(self.min_gap_s - air, 0.0))
+        return np.array(lb)
+
+    def events(self, dwell: Seq[float]) -> tuple[tuple[Event, ...], float, bool]:
+        """Events before done for the dwells, the time the last one ends, s, and the platen.
+
+        Returns the events, the time the food is back on the plate after the last event
+        (s) and whether the platen is closed then.
+        """
+        if len(dwell) != self.n_free:
+            raise ValueError(f"{len(dwell)} dwells for the sequence {self.kinds}")
+        out, t, closed = [], 0.0, False
+        for kind, d in zip(self.kinds, dwell, strict=True):
+            t += float(d)
+            out.append(Event(kind, t))
+            if kind == "flip":
+                t += self.flip_air_s
+            closed = {"platen_close": True, "platen_open": False}.get(kind, closed)
+        return tuple(out), t, closed
+
+    def earliest_done_s(self, dwell: Seq[float]) -> float:
+        """Earliest done time the appliance allows after the events, s."""
+        _, t_end, _ = self.events(dwell)
+        return t_end + float(self.lower_bounds()[-1])
+
+    def dwells_of(self, schedule: Schedule) -> tuple[float, ...]:
+        """The dwell before each event of ``schedule`` (this sequence's events), s."""
+        head = [
+            e for e in schedule.events[:-1] if e.at_s < schedule.done_s or e.kind != "platen_open"
+        ]
+        if tuple(e.kind for e in head) != self.kinds:
+            raise ValueError(f"schedule events {[e.kind for e in head]} are not {self.kinds}")
+        out, t = [], 0.0
+        for e in head:
+            out.append(e.at_s - t)
+            t = e.at_s + (self.flip_air_s if e.kind == "flip" else 0.0)
+        return tuple(out)
+
+    def schedule(self, dwell: Seq[float], done_s: float) -> Schedule:
+        """The schedule with these dwells and done at ``done_s`` (a closed platen opens then)."""
+        head, _, closed = self.events(dwell)
+        tail = (Event("platen_open", done_s),) if closed else ()
+        return Schedule((*head, *tail, Event("done", done_s)))
 
 
 def phases_for(schedule: Schedule, env: Surroundings, rest_s: float = 0.0) -> list[Phase]:

@@ -89,7 +89,7 @@ class Problem:
     scenarios: tuple[Scenario, ...]
     nominal: Scenario | None
     sequences: tuple[tuple[str, ...], ...]
-    search: ReferenceSettings = ReferenceSettings(30, 0.5)  # noqa: RUF009 (frozen)
+    search: ReferenceSettings
 
     def cases_at(self, thickness_m: float, start_temp_c: float) -> tuple[Case, ...]:
         """Reference cases of every scenario behind a *measured* point (m, degC)."""
