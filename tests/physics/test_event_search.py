@@ -142,3 +142,21 @@ def test_sequence_dwells_round_trip_through_a_schedule() -> None:
             search_events(_cases(), _seq(0), (), 150.0),
             Sequence(("platen_close", "flip"), 10.0, 1.5),
         )
+
+
+def test_runs_ended_at_the_first_passing_row_read_the_same_done_times(monkeypatch) -> None:
+    """The search's runs stop once the food is done; the done times are those of full runs."""
+    import obvert.search.readoff as readoff
+
+    full = readoff.slack_rows
+    rng = np.random.default_rng(7)
+    picks = []
+    for thick, t0 in [(0.006, 4.0), (0.010, -6.0)]:
+        for flips in (1, 2, 3):
+            for _ in range(2):
+                picks.append((_cases(thick, t0), _seq(flips), rng.uniform(12.0, 40.0, flips)))
+    early = [read_done(c, s, d, 900.0) for c, s, d in picks]
+    monkeypatch.setattr(readoff, "slack_rows", lambda case, long, _after=None: full(case, long))
+    whole = [read_done(c, s, d, 900.0) for c, s, d in picks]
+    assert all(np.isfinite(early))
+    assert early == whole  # bit for bit

@@ -12,6 +12,7 @@ from obvert.food.lethality import LethalityModel
 from obvert.food.table import constant_table
 from obvert.thermal.boundary import STEFAN_BOLTZMANN, FaceBC, Phase
 from obvert.thermal.reference import (
+    EarlyEnd,
     ReferenceResult,
     ReferenceSettings,
     face_flux,
@@ -261,3 +262,27 @@ def test_huge_steps_on_a_thin_frozen_slab_converge_within_physical_bounds() -> N
     assert r.t_s[-1] == 183.0
     assert r.temp_c.min() >= -18.0 - 1e-9 and r.temp_c.max() <= 230.0 + 1e-9
     assert r.temp_c[-1].min() > 200.0  # 4 mm between two 230 degC plates for 2 min
+
+
+# ------------------------------------------------------------------------------ early end
+
+
+def test_a_cook_ended_early_is_the_full_cook_cut_at_the_first_done_row() -> None:
+    phases = [Phase(40.0, PLATE, AIR), Phase(400.0, PLATE, AIR, flip_before=True)]
+    full = run(phases, lethality=KINETICS)
+    end = EarlyEnd(after_s=60.0, log_reduction=3.0, temp_c=60.0)
+    short = simulate(TABLE, 0.01, 5.0, phases, KINETICS, COARSE, end)
+    lr, tmin = full.log_reduction.min(axis=1), full.temp_c.min(axis=1)
+    done = np.flatnonzero((full.t_s >= 60.0) & (lr >= 3.0) & (tmin >= 60.0))
+    assert done.size and done[0] < full.t_s.size - 10  # it ends well before the full cook
+    k = int(done[0])
+    assert short.t_s.size == k + 1
+    for name in ("t_s", "temp_c", "log_reduction", "surface_c", "phase_index", "mirrored"):
+        np.testing.assert_array_equal(getattr(short, name), getattr(full, name)[: k + 1])
+
+
+def test_a_cook_that_never_gets_done_runs_to_its_end() -> None:
+    phases = [Phase(30.0, PLATE, AIR)]
+    full = run(phases, lethality=KINETICS)
+    never = simulate(TABLE, 0.01, 5.0, phases, KINETICS, COARSE, EarlyEnd(0.0, 1e9))
+    np.testing.assert_array_equal(never.temp_c, full.temp_c)

@@ -9,12 +9,14 @@ off the same rows. Both read the criteria from here, so they cannot drift apart.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 
 from obvert.food.criteria import HoldRule, time_above_by_step
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
-from obvert.thermal.reference import food_frame, simulate
+from obvert.thermal.reference import EarlyEnd, food_frame, simulate
 
 #: Slack of a row whose time-at-temperature rule is not yet met (a pass/fail rule, no degree).
 HOLD_UNMET_SLACK = -1.0
@@ -23,7 +25,9 @@ HOLD_UNMET_SLACK = -1.0
 TEMP_SLACK_SCALE_K = 10.0
 
 
-def slack_rows(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
+def slack_rows(
+    case: Case, long: Schedule, end_at_pass_after_s: float | None = None
+) -> tuple[np.ndarray, np.ndarray]:
     """Times and slack of every row of one run of ``long`` on ``case``'s mesh.
 
     Parameters
@@ -32,6 +36,10 @@ def slack_rows(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
         Food, appliance, requirement and mesh (the reference's, or a coarser one).
     long : Schedule
         The schedule run; its done time is the end of the run, s.
+    end_at_pass_after_s : float, optional
+        End the run at the first row at or after this time whose slack is >= 0, s (the
+        rows before it are unchanged; ignored under a time-at-temperature rule, which the
+        kernel does not track). None: run to the end of ``long``.
 
     Returns
     -------
@@ -45,6 +53,10 @@ def slack_rows(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
         slack >= 0.
     """
     req = case.requirement
+    end = None
+    if end_at_pass_after_s is not None and not req.holds:
+        floor = -math.inf if req.min_temp_c is None else req.min_temp_c
+        end = EarlyEnd(end_at_pass_after_s, req.log_reduction, floor)
     res = simulate(
         case.table,
         case.thickness_m,
@@ -52,6 +64,7 @@ def slack_rows(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
         phases_for(long, case.env),
         case.lethality,
         case.settings,
+        end,
     )
     lr = res.log_reduction.min(axis=1)
     target = req.log_reduction

@@ -45,7 +45,7 @@ def read_done(cases: Seq[Case], seq: Sequence, dwell: Seq[float], horizon_s: flo
     long = seq.schedule(dwell, horizon)
     worst = lower
     for case in cases:
-        t, slack = slack_rows(case, long)
+        t, slack = slack_rows(case, long, lower - 1e-9)
         ok = (t >= lower - 1e-9) & (slack >= 0.0)
         hits = np.flatnonzero(ok)
         if hits.size == 0:

@@ -112,6 +112,10 @@ def _node(
     for kinds in problem.sequences:
         seq = Sequence(kinds, a.min_event_gap_s, a.flip_air_s)
         fewer = found.get(kinds[:-1]) if kinds and kinds[-1] == "flip" else None
+        unpaid = _unpaid(kinds, found, p.flip_cost_s)
+        if unpaid is not None:
+            cands.append(Candidate(kinds.count("flip"), None, unpaid, kinds))
+            continue
         starts: list[tuple[tuple[float, ...], bool]] = []
         if kinds in history:
             starts.append((tuple(predict(history[kinds][-2:], at[1])), True))
@@ -177,6 +181,33 @@ def _node(
     )
     err = (cert.error.log, cert.error.temp_k) if cert.error else (0.0, 0.0)
     return node, err
+
+
+def _unpaid(
+    kinds: tuple[str, ...], found: dict[tuple[str, ...], Searched], flip_cost_s: float
+) -> str | None:
+    """Why ``kinds`` is not searched: its last flip's predecessor did not pay (None: search it).
+
+    Flips come before any platen move in a sequence. With ``n`` flips, the sequences with
+    ``n - 1`` and ``n - 2`` flips and the same platen moves are compared: if the ``n - 1``-th
+    flip did not shorten the cook by more than the flip cost, a further flip is not searched
+    (each further flip shortens the cook by less than the one before: docs/speed.md).
+    """
+    n = kinds.count("flip")
+    if n < 2:
+        return None
+    rest = tuple(k for k in kinds if k != "flip")
+    one_less = ("flip",) * (n - 1) + rest
+    two_less = ("flip",) * (n - 2) + rest
+    if one_less not in found or two_less not in found:
+        return None
+    gain = found[two_less].done_s - found[one_less].done_s
+    if gain > flip_cost_s:
+        return None
+    return (
+        f"not searched: flip {n - 1} shortened the cook by {gain:.1f} s, no more than the "
+        f"flip cost ({flip_cost_s:g} s)"
+    )
 
 
 def _with_reference(c: Candidate, planned_s: float) -> Candidate:

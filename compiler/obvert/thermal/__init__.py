@@ -7,10 +7,17 @@ CasADi expressions) is what the planner optimises on.
 
 from obvert.thermal.batch import CookCase, ReferenceSummary, simulate_many
 from obvert.thermal.boundary import FaceBC, Phase, Surroundings
-from obvert.thermal.reference import ReferenceResult, ReferenceSettings, food_frame, simulate
+from obvert.thermal.reference import (
+    EarlyEnd,
+    ReferenceResult,
+    ReferenceSettings,
+    food_frame,
+    simulate,
+)
 from obvert.thermal.spectral import SpectralModel, SpectralSettings
 
 __all__ = [
+    "EarlyEnd",
     "CookCase",
     "FaceBC",
     "Phase",

@@ -584,14 +584,17 @@ def _march(
     last_acc: Array,
     last_temp: Array,
     removal_temp: Array,
-) -> tuple[int, float, float, float, bool]:
+    stop: Array,
+) -> tuple[int, float, float, float, bool, int]:
     """March the unknowns ``y`` = [T_s0, E_cells.., T_s1] through all phases of one cook.
 
     Records every step end into the ``hist_*`` arrays when they have rows; always keeps the
     state of the last recorded row (``last_temp`` with surfaces at both ends, the per-cell
     accumulators ``last_acc`` and the returned mirrored flag) and the cell temperatures at the
-    end of the removal phase. Returns (outcome code, time and step of a failure, its last
-    Newton error estimate, mirrored).
+    end of the removal phase. ``stop`` = [time s, log reduction, temperature degC]: the march
+    ends after the first step that ends at or after that time with every cell at or above
+    both (an infinite time: never). Returns (outcome code, time and step of a failure, its
+    last Newton error estimate, mirrored, index of the last row marched).
     """
     n = y.size - 2
     record = hist_t.size > 0
@@ -616,7 +619,7 @@ def _march(
         if not _rate(
             lk, n, dx, ph_faces, t_start, fsrc0[p], fqx0[p], forced, y, fn, tol, max_iter, wk
         ):
-            return _SURFACE_FAILED, t_start, 0.0, math.inf, last_mirrored
+            return _SURFACE_FAILED, t_start, 0.0, math.inf, last_mirrored, row
         temp = wk[_TEMP]
         if p == 0:
             _cells(lk, y, n, wk)
@@ -645,7 +648,7 @@ def _march(
                     forced, tol, max_iter, wk, hw,
                 )  # fmt: skip
                 if code != _OK:
-                    return code, t_fail, dt_fail, err, last_mirrored
+                    return code, t_fail, dt_fail, err, last_mirrored, row
                 dy[:] = y - y_prev
                 temp = wk[_TEMP]
                 _accumulate(acc, temp, n, dt, kin, wk)
@@ -654,15 +657,29 @@ def _march(
                 last_temp[:] = temp
                 last_acc[:, :] = acc
                 last_mirrored = mirrored
+                t_row = t_start + duration * (k + 1) / m
                 if record:
-                    hist_t[row] = t_start + duration * (k + 1) / m
+                    hist_t[row] = t_row
                     hist_phase[row], hist_mirr[row] = p, mirrored
                     hist_temp[row, :] = temp[1 : n + 1]
                     hist_surf[row, 0], hist_surf[row, 1] = temp[0], temp[n + 1]
                     hist_acc[row, :] = acc[ACC_LOG_REDUCTION]
+                if t_row >= stop[0] and _all_at_least(acc[ACC_LOG_REDUCTION], temp, n, stop):
+                    if p == removal_phase:
+                        removal_temp[:] = last_temp[1 : n + 1]
+                    return _OK, 0.0, 0.0, 0.0, last_mirrored, row
         if p == removal_phase:
             removal_temp[:] = last_temp[1 : n + 1]
-    return _OK, 0.0, 0.0, 0.0, last_mirrored
+    return _OK, 0.0, 0.0, 0.0, last_mirrored, row
+
+
+@numba.njit(cache=True)
+def _all_at_least(lr: Array, temp: Array, n: int, stop: Array) -> bool:
+    """Every cell has log reduction >= ``stop[1]`` and temperature >= ``stop[2]``."""
+    for c in range(n):
+        if lr[c] < stop[1] or temp[c + 1] < stop[2]:
+            return False
+    return True
 
 
 # ------------------------------------------------------------------------ Python side
@@ -832,6 +849,7 @@ def run_case(
     record: bool,
     removal_phase: int,
     forcing: Forcing | None = None,
+    stop: tuple[float, float, float] | None = None,
 ) -> CaseOutput:
     """March one cook through the compiled kernel (inputs already checked by the caller).
 
@@ -859,6 +877,10 @@ def run_case(
         Index of the phase whose last row is the removal row.
     forcing : callable, optional
         Verification-only manufactured source, see :data:`Forcing`.
+    stop : (float, float, float), optional
+        End the cook early, after the first step that ends at or after ``stop[0]`` s with
+        every cell's log reduction at least ``stop[1]`` (log10) and temperature at least
+        ``stop[2]`` (degC); the history then ends at that row (None: run every phase).
 
     Returns
     -------
@@ -901,11 +923,12 @@ def run_case(
     )
     y = np.concatenate([start_temp_c[:1], lookup.enthalpy(start_temp_c), start_temp_c[-1:]])
     last_acc, last_temp, removal_temp = np.zeros((N_ACC, n)), np.zeros(n + 2), np.zeros(n)
-    code, t_fail, dt_fail, err, mirrored = _march(
+    stop_at = np.array([math.inf, 0.0, 0.0] if stop is None else stop, dtype=float)
+    code, t_fail, dt_fail, err, mirrored, last_row = _march(
         lookup.arrays(), dx, y, np.array(counts, dtype=np.int64), durations, t_starts,
         np.array([p.flip_before for p in phases], dtype=np.bool_), faces, float(newton_tol_k),
         int(max_newton), _kinetics(lethality), int(removal_phase), src0, qx0, src, qx,
-        forcing is not None, *hist, last_acc, last_temp, removal_temp,
+        forcing is not None, *hist, last_acc, last_temp, removal_temp, stop_at,
     )  # fmt: skip
     if code == _SURFACE_FAILED:
         raise SolverDivergedError(f"at t = {t_fail:.6g} s: surface balance did not converge")
@@ -919,7 +942,7 @@ def run_case(
             f"at t = {t_fail:.6g} s with dt = {dt_fail:.3g} s: Newton did not converge "
             f"(last error estimate {err:.3g} K)"
         )
-    t_hist, temp, lr, surf, phase_index, mirr = hist
+    t_hist, temp, lr, surf, phase_index, mirr = (h[: last_row + 1] for h in hist)
     return CaseOutput(
         t_hist, temp, lr, surf, phase_index, mirr,
         last_temp[1:-1].copy(), last_acc, bool(mirrored), removal_temp,
