@@ -19,6 +19,8 @@ from __future__ import annotations
 import math
 from dataclasses import replace
 
+import numpy as np
+
 from obvert.certify.node import raised
 from obvert.plan.quantize import quantize
 from obvert.problem.model import Case, Problem
@@ -35,8 +37,8 @@ from obvert.search.events import predict
 from obvert.table.entry import BuildError, certified_node, node_name
 from obvert.table.model import Candidate, Node
 
-#: Per event sequence, (start temperature degC, dwells s) of the row's nodes so far.
-History = dict[tuple[str, ...], list[tuple[float, tuple[float, ...]]]]
+#: Per event sequence, (start temperature degC, dwells s, done s) of the row's nodes so far.
+History = dict[tuple[str, ...], list[tuple[float, tuple[float, ...], float]]]
 
 
 def search_row(problem: Problem, i: int) -> list[Node]:
@@ -118,7 +120,7 @@ def _node(
             continue
         starts: list[tuple[tuple[float, ...], bool]] = []
         if kinds in history:
-            starts.append((tuple(predict(history[kinds][-2:], at[1])), True))
+            starts.append((_predicted(history, kinds, found, at[1]), True))
         if kinds and kinds[:-1] in found:
             starts.append((seed_from(found[kinds[:-1]], seq), False))
         starts.append((_cold_start(seq, hint), False))
@@ -129,7 +131,7 @@ def _node(
             continue
         total_runs += runs
         found[kinds] = res
-        history.setdefault(kinds, []).append((at[1], res.dwell_s))
+        history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
         note = f"searched: {res.status} ({runs} run{'' if runs == 1 else 's'} of the search mesh)"
         cands.append(Candidate(kinds.count("flip"), res.done_s, note, kinds))
     if not found:
@@ -183,6 +185,33 @@ def _node(
     return node, err
 
 
+def _extrapolated(history: History, kinds: tuple[str, ...], t0: float) -> tuple[np.ndarray, float]:
+    """Dwells (s) and done time (s) of ``kinds`` at ``t0`` from the row's last two nodes."""
+    last = [e for e in history[kinds] if e[0] != t0][-2:]
+    dwell = predict([(t, d) for t, d, _ in last], t0)
+    done = float(predict([(t, (x,)) for t, _, x in last], t0)[0])
+    return dwell, done
+
+
+def _predicted(
+    history: History, kinds: tuple[str, ...], found: dict[tuple[str, ...], Searched], t0: float
+) -> tuple[float, ...]:
+    """Start for ``kinds`` at ``t0``: the row's dwells extrapolated, rescaled, s.
+
+    Done times jump where the start temperature crosses the freezing point (latent heat), and
+    a straight extrapolation misses the jump. The sequence with one event fewer has already
+    been searched at this node: its done time over its own extrapolated done time scales the
+    dwells (1 in smooth stretches of the row).
+    """
+    dwell, _ = _extrapolated(history, kinds, t0)
+    parent = kinds[:-1]
+    if parent in found and any(e[0] != t0 for e in history.get(parent, ())):
+        _, expected = _extrapolated(history, parent, t0)
+        if expected > 0.0:
+            dwell = dwell * (found[parent].done_s / expected)
+    return tuple(float(v) for v in dwell)
+
+
 def _unpaid(
     kinds: tuple[str, ...], found: dict[tuple[str, ...], Searched], flip_cost_s: float
 ) -> str | None:
@@ -234,11 +263,15 @@ def _nominal(
     ref = problem.case(nom, *at)
     coarse = (replace(ref, settings=problem.search),)
     kinds = robust.seq.kinds
-    start = tuple(predict(history[kinds][-2:], at[1])) if kinds in history else robust.dwell_s
+    start = (
+        tuple(predict([(t, d) for t, d, _ in history[kinds][-2:]], at[1]))
+        if kinds in history
+        else robust.dwell_s
+    )
     try:
         res = search_events(coarse, robust.seq, start, robust.done_s, near=True)
     except SearchError:
         return None
-    history.setdefault(kinds, []).append((at[1], res.dwell_s))
+    history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
     done = read_done([raised(ref, *stricter_by)], res.seq, res.dwell_s, 1.2 * res.done_s + 60.0)
     return float(done) if math.isfinite(done) else None
