@@ -24,6 +24,7 @@ from obvert.firmware.bundle import (
     node_bytes,
 )
 from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
+from obvert.spec.errors import toml_text
 from obvert.table import CookTable, Progress, manifest
 from obvert.table import compile_table as _compile
 
@@ -284,6 +285,25 @@ def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -
     return files
 
 
+class CatalogueSpecError(SpecError):
+    """A field that several specs of one catalogue must agree on; the message names each file.
+
+    Parameters
+    ----------
+    path : str
+        Dotted path of the field, e.g. ``appliance.name``.
+    by_file : dict of str to object
+        The value in each file (in the order given).
+    allowed : str
+        What the field accepts across the files.
+    """
+
+    def __init__(self, path: str, by_file: Mapping[str, object], allowed: str) -> None:
+        super().__init__(path, dict(by_file), allowed)
+        listed = ", ".join(f"{toml_text(v)} in {src}" for src, v in by_file.items())
+        self.args = (f"{path} = {listed}: allowed {allowed}",)
+
+
 def _bundle_bytes_bound(specs: Sequence[Spec], most: bool) -> int:
     """Bytes of the bundle of ``specs`` with the fewest (or most) events per node."""
     total = HEADER_BYTES + TRAILER_BYTES
@@ -330,7 +350,7 @@ def catalogue_check(
         raise SpecError("--flash-budget", flash_budget_bytes, f"a positive size ({exc})") from None
     appliances = {src: s.appliance.name for src, s in specs.items()}
     if len(set(appliances.values())) > 1:
-        raise SpecError(
+        raise CatalogueSpecError(
             "appliance.name",
             appliances,
             "the same appliance name in every spec of a catalogue (one bundle is for one "
@@ -338,7 +358,7 @@ def catalogue_check(
         )
     ticks = {src: f"{s.appliance.tick_s * 1e3:g} ms" for src, s in specs.items()}
     if len(set(ticks.values())) > 1:
-        raise SpecError(
+        raise CatalogueSpecError(
             "appliance.tick",
             ticks,
             "the same tick in every spec of a catalogue (one bundle, one tick)",
@@ -348,7 +368,7 @@ def catalogue_check(
         for src, s in specs.items():
             other = seen.setdefault(key(s), src)
             if other != src:
-                raise SpecError(
+                raise CatalogueSpecError(
                     "table.name",
                     {other: specs[other].name, src: s.name},
                     f"a different {what} in every spec of a catalogue (each product's id is "

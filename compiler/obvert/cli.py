@@ -569,9 +569,9 @@ def _build_catalogue(
                 if other != f"product {spec.name} ({src})":
                     raise SpecError(
                         "--catalogue" if other.startswith("catalogue") else "table.name",
-                        {other: file, src: spec.name},
-                        "names whose files do not clash (each product and the catalogue "
-                        "write their own files)",
+                        name if other.startswith("catalogue") else spec.name,
+                        f"names whose files do not clash ({file} is written by {other} and by "
+                        f"product {spec.name} ({src}))",
                     )
         key_pem = _bundle_key(ask.table_version, ask.sign_key)
     except (SpecError, ProfileError, EmitError) as exc:
