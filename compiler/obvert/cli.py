@@ -1,7 +1,8 @@
 """Command line: a thin layer that parses, calls the pure core, prints and writes files.
 
 Exit status of ``obvert build``: 0 built; 2 bad input (nothing written); 1 a node could not
-be planned or certified (nothing written). ``obvert verify``: 0 the bundle passes; 1 it is
+be planned or certified (nothing written; with ``--catalogue``, in any product: no product's
+table and no part of the catalogue). ``obvert verify``: 0 the bundle passes; 1 it is
 refused (the reason printed); 2 a file cannot be read or the key is not a key.
 """
 
@@ -220,7 +221,12 @@ def main() -> None:
 
 
 @main.command("build")
-@click.argument("spec_files", nargs=-1, type=click.Path(dir_okay=False, path_type=Path))
+@click.argument(
+    "spec_files",
+    nargs=-1,
+    metavar="[SPEC_FILE]...",
+    type=click.Path(dir_okay=False, path_type=Path),
+)
 @click.option(
     "--out",
     "out_dir",

@@ -391,3 +391,30 @@ def test_c_catalogue_lookup_equals_python_for_each_product(built, tmp_path, chai
     got = run.stdout.splitlines()
     assert got[0] == "check 0"
     assert got[1:] == expect
+
+
+def test_bundle_command_writes_the_same_catalogue_from_built_tables(tmp_path):
+    """``obvert bundle --c-catalogue`` on the stored real tables: the four files of
+    ``emit_catalogue`` (the bundle under the name --out gives), and its refusals."""
+    golden = Path(__file__).resolve().parents[1] / "golden" / "input"
+    tables = [tmp_path / "test_patty.json", tmp_path / "test_slider.json"]
+    for path in tables:
+        shutil.copy(golden / path.name, path)
+    out = tmp_path / "menu.bundle"
+    args = ["bundle", *map(str, tables), "--out", str(out), "--table-version", "2"]
+    res = _invoke(*args, "--c-catalogue", "test_menu")
+    assert res.exit_code == 0, res.stderr
+    manifests = [json.loads(p.read_bytes()) for p in tables]
+    expect = obvert.emit_catalogue("test_menu", manifests, table_version=2)
+    assert out.read_bytes() == expect.pop("test_menu.bundle")
+    for name, data in expect.items():
+        assert (tmp_path / name).read_bytes() == data, name
+    size = out.stat().st_size
+    res = _invoke(*args, "--c-catalogue", "small", "--flash-budget", str(size - 1))
+    assert res.exit_code == 2 and f"needs {size} bytes" in res.stderr
+    assert not (tmp_path / "small.c").exists()
+    res = _invoke(*args, "--c-catalogue", "test_patty")  # would overwrite an input table
+    assert res.exit_code == 2 and "--c-catalogue" in res.stderr and "input table" in res.stderr
+    assert (tmp_path / "test_patty.json").read_bytes() == (golden / "test_patty.json").read_bytes()
+    res = _invoke(*args, "--flash-budget", "1000")
+    assert res.exit_code == 2 and "--flash-budget = 1000: allowed only with" in res.stderr

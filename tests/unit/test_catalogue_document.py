@@ -52,7 +52,6 @@ def test_document_reads_back_to_every_products_manifest():
     assert doc["flash_budget_bytes"] == 65536  # the c99_fixed target's flash_budget_bytes
     bundle = files["test_menu.bundle"]
     assert doc["bundle"] == {
-        "file": "test_menu.bundle",
         "bytes": len(bundle),
         "sha256": hashlib.sha256(bundle).hexdigest(),
     }

@@ -116,7 +116,7 @@ def catalogue_document(
     Returns
     -------
     dict
-        ``appliance`` (name, model id), ``bundle`` (bytes, SHA-256), ``catalogue``,
+        ``appliance`` (name, model id), ``bundle`` (size, SHA-256), ``catalogue``,
         ``catalogue_format_version``, ``caution``, ``flash_budget_bytes``, ``generator``,
         ``products`` (product id, table name, manifest; ascending product id),
         ``table_version`` and ``tick_s``; canonical JSON of it is ``<name>.json``.
@@ -133,7 +133,6 @@ def catalogue_document(
     return {
         "appliance": {"name": appliance, "model_id": name_id(appliance)},
         "bundle": {
-            "file": f"{name}.bundle",
             "bytes": len(bundle),
             "sha256": hashlib.sha256(bundle).hexdigest(),
         },
@@ -201,7 +200,7 @@ def loads_catalogue(data: bytes) -> Catalogue:
             f"catalogue field appliance = {appliance!r}: expected a name and its model id"
         )
     tick_s = _field(doc, "tick_s", float, "the tick in s (a number)")
-    bundle = _field(doc, "bundle", dict, "an object with file, bytes and sha256")
+    bundle = _field(doc, "bundle", dict, "an object with bytes and sha256")
     digest = bundle.get("sha256")
     if not isinstance(digest, str) or len(digest) != 64:
         raise CatalogueError(f"catalogue field bundle.sha256 = {digest!r}: expected 64 hex digits")
