@@ -183,3 +183,11 @@ def test_catalogue_compiles_for_cortex_m0(tmp_path):
     )  # fmt: skip
     undefined = set(nm.stdout.split()) - {"U"}
     assert undefined <= INTEGER_HELPERS, undefined
+
+
+@pytest.mark.parametrize("level", ["-O0", "-O1", "-O2", "-O3", "-Os"])
+def test_catalogue_is_clean_at_every_optimisation_level(host_cc, tmp_path, level):
+    """-std=c99 -Wall -Wextra -Werror -pedantic at -O0..-Os (the static asserts included)."""
+    files = catalogue_files("line_menu", _manifests(), table_version=2)
+    problems = compile_units(host_cc, tmp_path, files, USER_UNIT, (level,))
+    assert not problems, problems
