@@ -311,8 +311,16 @@ def build_cmd(
     With --catalogue NAME, build the tables of several SPEC_FILEs (products of one appliance
     and tick) in one run and also write their catalogue.
     """
-    catalogue_file = _catalogue_file(spec_files) if catalogue is None else None
+    catalogue_file = _catalogue_file(spec_files)
     if catalogue_file is not None:
+        if catalogue is not None or len(spec_files) > 1:
+            click.echo(
+                f"error: SPEC_FILE: {catalogue_file} is a catalogue file: allowed alone, "
+                "without other spec files and without --catalogue (it names its catalogue in "
+                "[catalogue] name); nothing was built",
+                err=True,
+            )
+            sys.exit(2)
         catalogue, spec_files, flash_budget = _read_catalogue_file(catalogue_file, flash_budget)
     if catalogue is not None:
         _build_catalogue(
@@ -456,14 +464,15 @@ class _Catalogue:
 
 
 def _catalogue_file(spec_files: tuple[Path, ...]) -> Path | None:
-    """The one SPEC_FILE when it is a catalogue file (a TOML with a [catalogue] table)."""
-    if len(spec_files) != 1:
-        return None
-    try:
-        data = tomllib.loads(spec_files[0].read_text("utf-8-sig"))
-    except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-        return None  # the spec loader reports it, naming the file
-    return spec_files[0] if isinstance(data.get("catalogue"), dict) else None
+    """The first SPEC_FILE that is a catalogue file (a TOML with a [catalogue] table)."""
+    for path in spec_files:
+        try:
+            data = tomllib.loads(path.read_text("utf-8-sig"))
+        except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
+            continue  # the spec loader reports it, naming the file
+        if isinstance(data.get("catalogue"), dict):
+            return path
+    return None
 
 
 def _read_catalogue_file(

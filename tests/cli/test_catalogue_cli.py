@@ -172,6 +172,11 @@ def test_a_catalogue_file_is_checked_naming_the_field(tmp_path):
     res = _catalogue(out, menu, extra=("--table-version", "1"))
     assert res.exit_code == 2
     assert str(tmp_path / "specs" / "none.toml") in res.stderr  # relative to the file
+    for extra in (("--catalogue", "other"), ()):
+        args = (menu, SPEC) if not extra else (menu,)
+        res = _catalogue(out, *args, extra=(*extra, "--table-version", "1"))
+        assert res.exit_code == 2
+        assert f"{menu} is a catalogue file: allowed alone" in res.stderr
     assert not out.exists()
 
 
