@@ -22,11 +22,6 @@ from typing import Any
 
 import click
 
-if sys.version_info >= (3, 11):
-    import tomllib
-else:  # pragma: no cover
-    import tomli as tomllib
-
 from obvert.about import CAUTION, __version__
 
 DEMOS = ("clamshell", "griddle", "griddle_line")
@@ -311,17 +306,26 @@ def build_cmd(
     With --catalogue NAME, build the tables of several SPEC_FILEs (products of one appliance
     and tick) in one run and also write their catalogue.
     """
-    catalogue_file = _catalogue_file(spec_files)
-    if catalogue_file is not None:
+    from obvert.spec import SpecError, is_catalogue_file, load_catalogue_file
+
+    menus = [path for path in spec_files if is_catalogue_file(path)]
+    if menus:
         if catalogue is not None or len(spec_files) > 1:
             click.echo(
-                f"error: SPEC_FILE: {catalogue_file} is a catalogue file: allowed alone, "
+                f"error: SPEC_FILE: {menus[0]} is a catalogue file: allowed alone, "
                 "without other spec files and without --catalogue (it names its catalogue in "
                 "[catalogue] name); nothing was built",
                 err=True,
             )
             sys.exit(2)
-        catalogue, spec_files, flash_budget = _read_catalogue_file(catalogue_file, flash_budget)
+        try:
+            menu = load_catalogue_file(menus[0])
+        except SpecError as exc:
+            click.echo(f"error: catalogue file {menus[0]}: {exc}; nothing was built", err=True)
+            sys.exit(2)
+        catalogue, spec_files = menu.name, menu.specs
+        if flash_budget is None:  # --flash-budget wins over the file's
+            flash_budget = menu.flash_budget_bytes
     if catalogue is not None:
         _build_catalogue(
             _Catalogue(catalogue, spec_files, table_version, sign_key, flash_budget),
@@ -461,59 +465,6 @@ class _Catalogue:
     sign_key: Path | None
     #: Flash budget of the compiled-in bundle, bytes (None: the c99_fixed target's).
     flash_budget: int | None
-
-
-def _catalogue_file(spec_files: tuple[Path, ...]) -> Path | None:
-    """The first SPEC_FILE that is a catalogue file (a TOML with a [catalogue] table)."""
-    for path in spec_files:
-        try:
-            data = tomllib.loads(path.read_text("utf-8-sig"))
-        except (OSError, UnicodeDecodeError, tomllib.TOMLDecodeError):
-            continue  # the spec loader reports it, naming the file
-        if isinstance(data.get("catalogue"), dict):
-            return path
-    return None
-
-
-def _read_catalogue_file(
-    path: Path, flash_budget: int | None
-) -> tuple[str, tuple[Path, ...], int | None]:
-    """Name, spec files (relative to the catalogue file) and budget of a catalogue file.
-
-    ``--flash-budget`` wins over the file's ``catalogue.flash_budget_bytes``. Exit 2 naming
-    the file and the field when the file is malformed.
-    """
-    data = tomllib.loads(path.read_text("utf-8-sig"))
-
-    def fail(field: str, value: object, allowed: str) -> None:
-        click.echo(
-            f"error: catalogue file {path}: {field} = {value!r}: allowed {allowed}; nothing "
-            "was built",
-            err=True,
-        )
-        sys.exit(2)
-
-    unknown = sorted(set(data) - {"catalogue", "product"})
-    if unknown:
-        fail(unknown[0], data[unknown[0]], "only the tables [catalogue] and [[product]]")
-    head = data["catalogue"]
-    for key in sorted(set(head) - {"name", "flash_budget_bytes"}):
-        fail(f"catalogue.{key}", head[key], "only the keys name and flash_budget_bytes")
-    name = head.get("name")
-    if not isinstance(name, str):
-        fail("catalogue.name", name, "a catalogue name, [a-z][a-z0-9_]*")
-    budget = head.get("flash_budget_bytes")
-    if budget is not None and (isinstance(budget, bool) or not isinstance(budget, int)):
-        fail("catalogue.flash_budget_bytes", budget, "an integer number of bytes")
-    products = data.get("product")
-    if not isinstance(products, list) or not products:
-        fail("product", products, "one or more [[product]] tables, each with spec = PATH")
-    specs = []
-    for k, p in enumerate(products):
-        if not isinstance(p, dict) or sorted(p) != ["spec"] or not isinstance(p["spec"], str):
-            fail(f"product[{k}]", p, "one key, spec = the path of a spec file")
-        specs.append(path.parent / p["spec"])
-    return name, tuple(specs), flash_budget if flash_budget is not None else budget
 
 
 def _build_catalogue(

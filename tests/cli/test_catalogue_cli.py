@@ -161,10 +161,16 @@ def test_a_catalogue_file_is_checked_naming_the_field(tmp_path):
     menu.write_text('[catalogue]\nname = "test_menu"\ncolour = "red"\n', encoding="utf-8")
     res = _catalogue(out, menu, extra=("--table-version", "1"))
     assert res.exit_code == 2
-    assert f"catalogue file {menu}: catalogue.colour = 'red'" in res.stderr
+    assert f'catalogue file {menu}: catalogue.colour = "red": allowed only the keys' in res.stderr
     menu.write_text('[catalogue]\nname = "test_menu"\n', encoding="utf-8")
     res = _catalogue(out, menu, extra=("--table-version", "1"))
-    assert res.exit_code == 2 and "product = None" in res.stderr
+    assert res.exit_code == 2 and "product is missing: allowed one or more" in res.stderr
+    menu.write_text(
+        '[catalogue]\nname = "test_menu"\nflash_budget_bytes = 0\n[[product]]\nspec = "a.toml"\n',
+        encoding="utf-8",
+    )
+    res = _catalogue(out, menu, extra=("--table-version", "1"))
+    assert res.exit_code == 2 and "catalogue.flash_budget_bytes = 0: allowed" in res.stderr
     menu.write_text(
         '[catalogue]\nname = "test_menu"\n[[product]]\nspec = "specs/none.toml"\n',
         encoding="utf-8",
