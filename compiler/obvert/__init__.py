@@ -33,6 +33,7 @@ _PUBLIC = {
     "demo_spec": "obvert.api",
     "compile_table": "obvert.api",
     "emit": "obvert.api",
+    "emit_catalogue": "obvert.api",
     "manifest": "obvert.table",
     "CookTable": "obvert.table",
     "BuildError": "obvert.table",

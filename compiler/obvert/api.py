@@ -14,7 +14,17 @@ from typing import Any
 
 from obvert.emitter import EmitError, TargetProfile, load_target, table_bytes
 from obvert.emitter import emit as _emit_one
+from obvert.emitter.catalogue import catalogue_budget, catalogue_files
+from obvert.firmware.bundle import (
+    DIRECTORY_ENTRY_BYTES,
+    HEADER_BYTES,
+    PRODUCT_HEAD_BYTES,
+    TRAILER_BYTES,
+    name_id,
+    node_bytes,
+)
 from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
+from obvert.spec.errors import toml_text
 from obvert.table import CookTable, Progress, manifest
 from obvert.table import compile_table as _compile
 
@@ -124,6 +134,14 @@ def output_names(spec: Spec, targets: Targets | None = None) -> dict[str, str]:
     return {name: prof.name for name, prof in owner.items()}
 
 
+def _event_counts(spec: Spec) -> tuple[int, int]:
+    """Fewest and most events a node of ``spec`` can have (done included)."""
+    a = spec.appliance
+    fewest = 1 if a.kind != "clamshell" else 3  # done; or close, open and done
+    most = a.max_flips + (1 if a.kind == "flipping_griddle" else 3)
+    return fewest, most
+
+
 def budget_check(spec: Spec, targets: Targets | None = None) -> list[str]:
     """Check a spec's grid against the targets' byte budgets before any work.
 
@@ -145,9 +163,7 @@ def budget_check(spec: Spec, targets: Targets | None = None) -> list[str]:
         The table cannot fit a target's budget even with the shortest schedules.
     """
     n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
-    a = spec.appliance
-    fewest = 1 if a.kind != "clamshell" else 3  # done; or close, open and done
-    most = a.max_flips + (1 if a.kind == "flipping_griddle" else 3)
+    fewest, most = _event_counts(spec)
     warnings = []
     for prof in _profiles(targets, spec):
         budget = prof.flash_budget_bytes
@@ -267,3 +283,157 @@ def emit(table: CookTable | Mapping[str, Any], targets: Targets | None = None) -
                 )
             files[name], owner[name] = data, prof.name
     return files
+
+
+class CatalogueSpecError(SpecError):
+    """A field that several specs of one catalogue must agree on; the message names each file.
+
+    Parameters
+    ----------
+    path : str
+        Dotted path of the field, e.g. ``appliance.name``.
+    by_file : dict of str to object
+        The value in each file (in the order given).
+    allowed : str
+        What the field accepts across the files.
+    """
+
+    def __init__(self, path: str, by_file: Mapping[str, object], allowed: str) -> None:
+        super().__init__(path, dict(by_file), allowed)
+        listed = ", ".join(f"{toml_text(v)} in {src}" for src, v in by_file.items())
+        self.args = (f"{path} = {listed}: allowed {allowed}",)
+
+
+def _bundle_bytes_bound(specs: Sequence[Spec], most: bool) -> int:
+    """Bytes of the bundle of ``specs`` with the fewest (or most) events per node."""
+    total = HEADER_BYTES + TRAILER_BYTES
+    for spec in specs:
+        n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
+        width = _event_counts(spec)[1 if most else 0]
+        total += DIRECTORY_ENTRY_BYTES + PRODUCT_HEAD_BYTES + 4 * (n_x + n_t)
+        total += n_x * n_t * node_bytes(width)
+    return total
+
+
+def catalogue_check(
+    specs: Mapping[str, Spec], flash_budget_bytes: int | None = None
+) -> tuple[int, list[str]]:
+    """Check before any work that several specs can make one catalogue.
+
+    Parameters
+    ----------
+    specs : dict of str to Spec
+        Each spec by where it came from (its file), in the order given.
+    flash_budget_bytes : int, optional
+        Byte budget of the catalogue's compiled-in bundle (default: the ``c99_fixed``
+        target's ``flash_budget_bytes``).
+
+    Returns
+    -------
+    (int, list of str)
+        The budget in bytes, and warnings: the bundle may exceed the budget with the longest
+        schedules (checked again after the build).
+
+    Raises
+    ------
+    SpecError
+        Specs for different appliance names or ticks, two specs with one table name (or
+        product id), naming the files and the field; a bad budget.
+    EmitError
+        The bundle cannot fit the budget even with the shortest schedules.
+    """
+    if not specs:
+        raise SpecError("SPEC_FILE", [], "at least one spec for a catalogue")
+    try:
+        budget = catalogue_budget(flash_budget_bytes)
+    except EmitError as exc:
+        raise SpecError("--flash-budget", flash_budget_bytes, f"a positive size ({exc})") from None
+    appliances = {src: s.appliance.name for src, s in specs.items()}
+    if len(set(appliances.values())) > 1:
+        raise CatalogueSpecError(
+            "appliance.name",
+            appliances,
+            "the same appliance name in every spec of a catalogue (one bundle is for one "
+            "appliance model)",
+        )
+    ticks = {src: f"{s.appliance.tick_s * 1e3:g} ms" for src, s in specs.items()}
+    if len(set(ticks.values())) > 1:
+        raise CatalogueSpecError(
+            "appliance.tick",
+            ticks,
+            "the same tick in every spec of a catalogue (one bundle, one tick)",
+        )
+    for what, key in (("table name", lambda s: s.name), ("product id", lambda s: name_id(s.name))):
+        seen: dict[object, str] = {}
+        for src, s in specs.items():
+            other = seen.setdefault(key(s), src)
+            if other != src:
+                raise CatalogueSpecError(
+                    "table.name",
+                    {other: specs[other].name, src: s.name},
+                    f"a different {what} in every spec of a catalogue (each product's id is "
+                    "derived from its table name)",
+                )
+    low = _bundle_bytes_bound(list(specs.values()), most=False)
+    if low > budget:
+        raise EmitError(
+            f"catalogue: {len(specs)} products need at least {low} bytes of bundle, above the "
+            f"flash budget of {budget} bytes: use fewer products or grid nodes, or a larger "
+            "budget (--flash-budget)"
+        )
+    high = _bundle_bytes_bound(list(specs.values()), most=True)
+    warnings = []
+    if high > budget:
+        warnings.append(
+            f"catalogue: the bundle may need up to {high} bytes against the flash budget of "
+            f"{budget} bytes (checked again after the build)"
+        )
+    return budget, warnings
+
+
+def emit_catalogue(
+    name: str,
+    tables: Sequence[CookTable | Mapping[str, Any]],
+    *,
+    table_version: int,
+    private_key_pem: bytes | None = None,
+    flash_budget_bytes: int | None = None,
+) -> dict[str, bytes]:
+    """The catalogue of several products' tables for one appliance.
+
+    Parameters
+    ----------
+    name : str
+        Catalogue name: file stem and C prefix (``[a-z][a-z0-9_]*``).
+    tables : sequence of CookTable or dict
+        The products' compiled tables (or their manifests), all for one appliance and tick.
+    table_version : int
+        Table version of the catalogue's bundle, 1 to 2**32 - 1.
+    private_key_pem : bytes, optional
+        Ed25519 private key (PEM) signing the bundle; None: unsigned.
+    flash_budget_bytes : int, optional
+        Most bytes the compiled-in bundle may take (default: the ``c99_fixed`` target's).
+
+    Returns
+    -------
+    dict of str to bytes
+        ``<name>.h`` and ``<name>.c`` (the bundle compiled in, with its loader and
+        ``<name>_catalogue_lookup``), ``<name>.bundle`` and ``<name>.json`` (every product's
+        manifest); the same inputs give the same bytes.
+
+    Raises
+    ------
+    EmitError
+        A bad name or budget, a bundle over the budget, tables for different appliances or
+        ticks, or repeated product ids.
+    ManifestError
+        A table that is not certified or not in the current format.
+    """
+    manifests = [manifest(t) if isinstance(t, CookTable) else dict(t) for t in tables]
+    return catalogue_files(
+        name,
+        manifests,
+        table_version=table_version,
+        private_key_pem=private_key_pem,
+        flash_budget_bytes=flash_budget_bytes,
+    )

@@ -1,13 +1,15 @@
 """Command line: a thin layer that parses, calls the pure core, prints and writes files.
 
 Exit status of ``obvert build``: 0 built; 2 bad input (nothing written); 1 a node could not
-be planned or certified (nothing written). ``obvert verify``: 0 the bundle passes; 1 it is
+be planned or certified (nothing written; with ``--catalogue``, in any product: no product's
+table and no part of the catalogue). ``obvert verify``: 0 the bundle passes; 1 it is
 refused (the reason printed); 2 a file cannot be read or the key is not a key.
 """
 
 from __future__ import annotations
 
 import contextlib
+import dataclasses
 import math
 import os
 import signal
@@ -156,9 +158,10 @@ def _bundle_key(table_version: int | None, sign_key: Path | None) -> bytes | Non
 class _ProgressLine:
     """Prints build progress to stderr: done/total, failed solves, time left, what finished."""
 
-    def __init__(self) -> None:
+    def __init__(self, label: str = "") -> None:
         self.start = time.monotonic()  # the build starts with its nodes
         self.stage = "nodes"
+        self.label = f"{label} " if label else ""
 
     def __call__(self, event: Any) -> None:
         if event.stage != self.stage:
@@ -167,7 +170,7 @@ class _ProgressLine:
         left = elapsed / event.done * (event.total - event.done) if event.done else math.nan
         eta = "" if math.isnan(left) else f", about {_duration(left)} left"
         click.echo(
-            f"[{event.stage} {event.done}/{event.total}, {event.failures} failed solves"
+            f"[{self.label}{event.stage} {event.done}/{event.total}, {event.failures} failed solves"
             f"{eta}] {event.message}",
             err=True,
         )
@@ -213,7 +216,12 @@ def main() -> None:
 
 
 @main.command("build")
-@click.argument("spec_file", required=False, type=click.Path(dir_okay=False, path_type=Path))
+@click.argument(
+    "spec_files",
+    nargs=-1,
+    metavar="[SPEC_FILE]...",
+    type=click.Path(dir_okay=False, path_type=Path),
+)
 @click.option(
     "--out",
     "out_dir",
@@ -263,8 +271,101 @@ def main() -> None:
     help="Ed25519 private key (PEM, from 'obvert keygen') that signs the bundle; needs "
     "--table-version.",
 )
+@click.option(
+    "--catalogue",
+    metavar="NAME",
+    default=None,
+    help="Build every SPEC_FILE (products of one appliance) and also write the catalogue "
+    "NAME.h, NAME.c (the bundle compiled in, NAME_catalogue_lookup by product id), "
+    "NAME.bundle and NAME.json (every product's table); needs --table-version. A SPEC_FILE "
+    "may instead be a catalogue file ([catalogue] name, [[product]] spec).",
+)
+@click.option(
+    "--flash-budget",
+    type=click.IntRange(1, 2**32 - 1),
+    default=None,
+    help="Most bytes the catalogue's compiled-in bundle may take (default: the c99_fixed "
+    "target's flash_budget_bytes, 65536); a static assert in NAME.c holds it.",
+)
 @click.option("--quiet", is_flag=True, help="Do not print progress.")
 def build_cmd(
+    spec_files: tuple[Path, ...],
+    out_dir: Path,
+    targets: tuple[str, ...],
+    jobs: int,
+    demo: str,
+    scheduler: str | None,
+    table_version: int | None,
+    sign_key: Path | None,
+    catalogue: str | None,
+    flash_budget: int | None,
+    quiet: bool,
+) -> None:
+    """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it.
+
+    With --catalogue NAME, build the tables of several SPEC_FILEs (products of one appliance
+    and tick) in one run and also write their catalogue.
+    """
+    from obvert.spec import SpecError, is_catalogue_file, load_catalogue_file
+
+    menus = [path for path in spec_files if is_catalogue_file(path)]
+    if menus:
+        if catalogue is not None or len(spec_files) > 1:
+            click.echo(
+                f"error: SPEC_FILE: {menus[0]} is a catalogue file: allowed alone, "
+                "without other spec files and without --catalogue (it names its catalogue in "
+                "[catalogue] name); nothing was built",
+                err=True,
+            )
+            sys.exit(2)
+        try:
+            menu = load_catalogue_file(menus[0])
+        except SpecError as exc:
+            click.echo(f"error: catalogue file {menus[0]}: {exc}; nothing was built", err=True)
+            sys.exit(2)
+        catalogue, spec_files = menu.name, menu.specs
+        if flash_budget is None:  # --flash-budget wins over the file's
+            flash_budget = menu.flash_budget_bytes
+    if catalogue is not None:
+        _build_catalogue(
+            _Catalogue(catalogue, spec_files, table_version, sign_key, flash_budget),
+            out_dir,
+            targets,
+            jobs,
+            demo,
+            scheduler,
+            quiet,
+        )
+        return
+    if len(spec_files) > 1:
+        click.echo(
+            f"error: SPEC_FILE: {len(spec_files)} files given "
+            f"({', '.join(map(str, spec_files))}): allowed one spec file, or several with "
+            "--catalogue NAME (one catalogue for one appliance); nothing was built",
+            err=True,
+        )
+        sys.exit(2)
+    if flash_budget is not None:
+        click.echo(
+            "error: --flash-budget applies to a catalogue only (with --catalogue NAME); a "
+            "single table's budget is its target's flash_budget_bytes; nothing was built",
+            err=True,
+        )
+        sys.exit(2)
+    _build_one(
+        spec_files[0] if spec_files else None,
+        out_dir,
+        targets,
+        jobs,
+        demo,
+        scheduler,
+        table_version,
+        sign_key,
+        quiet,
+    )
+
+
+def _build_one(
     spec_file: Path | None,
     out_dir: Path,
     targets: tuple[str, ...],
@@ -275,7 +376,7 @@ def build_cmd(
     sign_key: Path | None,
     quiet: bool,
 ) -> None:
-    """Build the cook table of SPEC_FILE (default: the built-in demo) and emit it."""
+    """``obvert build`` of one spec (or the demo): its table for the chosen targets."""
     from obvert.api import budget_check, compile_table, demo_spec, emit
     from obvert.emitter import EmitError, ProfileError
     from obvert.firmware import ManifestError
@@ -347,6 +448,175 @@ def build_cmd(
     write_atomically(out_dir, files)
     for name in sorted(files):
         click.echo(f"wrote {out_dir / name}")
+    click.echo(f"caution: {CAUTION}")
+
+
+@dataclasses.dataclass(frozen=True)
+class _Catalogue:
+    """What ``obvert build --catalogue`` was asked for."""
+
+    #: Catalogue name: file stem and C prefix.
+    name: str
+    #: The products' spec files, in the order given (none: the demo).
+    spec_files: tuple[Path, ...]
+    #: Table version of the catalogue's bundle (None: not given, refused).
+    table_version: int | None
+    #: Ed25519 private key file signing the bundle (None: unsigned).
+    sign_key: Path | None
+    #: Flash budget of the compiled-in bundle, bytes (None: the c99_fixed target's).
+    flash_budget: int | None
+
+
+def _build_catalogue(
+    ask: _Catalogue,
+    out_dir: Path,
+    targets: tuple[str, ...],
+    jobs: int,
+    demo: str,
+    scheduler: str | None,
+    quiet: bool,
+) -> None:
+    """``obvert build --catalogue``: every product's table, then the catalogue of them all.
+
+    Everything is checked before any work; a product that fails stops the run and nothing
+    is written, neither its tables nor the catalogue.
+    """
+    from obvert.api import (
+        budget_check,
+        catalogue_check,
+        compile_table,
+        demo_spec,
+        emit,
+        emit_catalogue,
+        output_names,
+    )
+    from obvert.emitter import EmitError, ProfileError
+    from obvert.emitter.catalogue import CATALOGUE_NAME_RULE, check_catalogue_name
+    from obvert.firmware import ManifestError
+    from obvert.firmware.bundle import parse_bundle
+    from obvert.review.summary import summary
+    from obvert.spec import SpecError, load_spec
+    from obvert.spec.errors import MISSING
+    from obvert.table import BuildError, CellCertificationError, manifest
+
+    name = ask.name
+    specs: dict[str, Any] = {}
+    profiles: dict[str, list[Any]] = {}
+    source = ""
+    try:
+        try:
+            check_catalogue_name(name)
+        except EmitError:
+            raise SpecError(
+                "--catalogue", name, f"a catalogue name, {CATALOGUE_NAME_RULE}"
+            ) from None
+        if ask.table_version is None or ask.table_version < 1:
+            raise SpecError(
+                "--table-version",
+                MISSING if ask.table_version is None else ask.table_version,
+                "an integer from 1 to 4294967295 (a catalogue's bundle carries it)",
+            )
+        for path in ask.spec_files or (None,):
+            source = str(path) if path is not None else f"<demo {demo}>"
+            if source in specs:
+                raise SpecError("SPEC_FILE", source, "each spec file once")
+            specs[source] = load_spec(path) if path is not None else demo_spec(demo)
+            profiles[source] = _profiles(targets, specs[source])
+        source = ""
+        problem = _writable_folder(out_dir)
+        if problem:
+            raise SpecError("--out", str(out_dir), f"a folder that can be written ({problem})")
+        budget, warnings = catalogue_check(specs, ask.flash_budget)
+        owner = {f"{name}{ext}": f"catalogue {name}" for ext in (".h", ".c", ".bundle", ".json")}
+        for src, spec in specs.items():
+            warnings += [f"{src}: {w}" for w in budget_check(spec, profiles[src])]
+            for file in output_names(spec, profiles[src]):
+                other = owner.setdefault(file, f"product {spec.name} ({src})")
+                if other != f"product {spec.name} ({src})":
+                    raise SpecError(
+                        "--catalogue" if other.startswith("catalogue") else "table.name",
+                        name if other.startswith("catalogue") else spec.name,
+                        f"names whose files do not clash ({file} is written by {other} and by "
+                        f"product {spec.name} ({src}))",
+                    )
+        key_pem = _bundle_key(ask.table_version, ask.sign_key)
+    except (SpecError, ProfileError, EmitError) as exc:
+        where = f"spec {source}: " if source else ""
+        click.echo(f"error: {where}{exc}; nothing was built", err=True)
+        sys.exit(2)
+    for w in warnings:
+        click.echo(f"warning: {w}", err=True)
+    tables = []
+    current = ""
+    try:
+        with _executor(scheduler) as executor, _terminate_as_exception():
+            for k, (src, spec) in enumerate(specs.items()):
+                current = f"product {k + 1}/{len(specs)} {spec.name} ({src})"
+                if not quiet:
+                    n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
+                    click.echo(
+                        f"{current}: {n_x} x {n_t} = {n_x * n_t} nodes on {jobs} worker "
+                        "process(es)",
+                        err=True,
+                    )
+                progress = None if quiet else _ProgressLine(spec.name)
+                tables.append(
+                    compile_table(
+                        spec,
+                        profiles[src],
+                        progress=progress,
+                        jobs=jobs,
+                        executor=executor,
+                        isolate=True,
+                    )
+                )
+    except (BuildError, CellCertificationError) as exc:
+        click.echo(f"error: {current}: {exc}", err=True)
+        click.echo(f"nothing was written: no product's table and no catalogue {name!r}", err=True)
+        sys.exit(1)
+    except KeyboardInterrupt:
+        click.echo("interrupted (Ctrl-C): every worker stopped, nothing was written", err=True)
+        sys.exit(130)
+    except _Terminated:
+        click.echo("terminated (SIGTERM): every worker stopped, nothing was written", err=True)
+        sys.exit(143)
+    files: dict[str, bytes] = {}
+    try:
+        for src, table in zip(specs, tables, strict=True):
+            current = f"product {table.spec.name} ({src})"
+            files.update(emit(table, profiles[src]))
+        current = f"catalogue {name}"
+        files.update(
+            emit_catalogue(
+                name,
+                tables,
+                table_version=ask.table_version,
+                private_key_pem=key_pem,
+                flash_budget_bytes=budget,
+            )
+        )
+    except (EmitError, ManifestError) as exc:
+        click.echo(f"error: {current}: {exc}; nothing was written", err=True)
+        sys.exit(2)
+    for src, table in zip(specs, tables, strict=True):
+        click.echo(f"product {table.spec.name} ({src}):")
+        click.echo(summary(manifest(table)))
+    bundle = parse_bundle(files[f"{name}.bundle"])
+    signed = "signed" if key_pem is not None else "UNSIGNED"
+    if key_pem is None:
+        click.echo(
+            f"note: the catalogue's bundle (table version {ask.table_version}) is UNSIGNED: "
+            "appliances and 'obvert verify' refuse it unless told to accept unsigned bundles",
+            err=True,
+        )
+    write_atomically(out_dir, files)
+    for file in sorted(files):
+        click.echo(f"wrote {out_dir / file}")
+    click.echo(
+        f"catalogue {name}: {len(bundle.products)} products, {bundle.node_count} nodes, table "
+        f"version {ask.table_version}, {signed}; bundle {len(files[f'{name}.bundle'])} bytes "
+        f"of the flash budget {budget}"
+    )
     click.echo(f"caution: {CAUTION}")
 
 
@@ -605,7 +875,15 @@ def keygen_cmd(out_dir: Path) -> None:
     metavar="NAME",
     default=None,
     help="Also write NAME.h and NAME.c beside the bundle: the bundle compiled in as const data "
-    "with the loader and NAME_catalogue_lookup(product_id, ...).",
+    "with the loader and NAME_catalogue_lookup(product_id, ...); and NAME.json, every "
+    "product's table in one file.",
+)
+@click.option(
+    "--flash-budget",
+    type=click.IntRange(1, 2**32 - 1),
+    default=None,
+    help="Most bytes the catalogue's compiled-in bundle may take (default: the c99_fixed "
+    "target's flash_budget_bytes, 65536).",
 )
 def bundle_cmd(
     tables: tuple[Path, ...],
@@ -613,6 +891,7 @@ def bundle_cmd(
     table_version: int,
     sign_key: Path | None,
     catalogue: str | None,
+    flash_budget: int | None,
 ) -> None:
     """Put several built tables (JSON manifests, one per product) into one bundle.
 
@@ -628,6 +907,16 @@ def bundle_cmd(
 
     try:
         key_pem = _bundle_key(table_version, sign_key)
+        if catalogue is None and flash_budget is not None:
+            raise SpecError("--flash-budget", flash_budget, "only with --c-catalogue NAME")
+        if catalogue is not None:
+            inputs = {p.resolve() for p in tables}
+            for ext in (".h", ".c", ".json"):
+                path = out_file.parent / f"{catalogue}{ext}"
+                if path.resolve() in inputs:
+                    raise SpecError(
+                        "--c-catalogue", catalogue, f"a name whose {path} is not an input table"
+                    )
     except SpecError as exc:
         click.echo(f"error: {exc}; nothing was written", err=True)
         sys.exit(2)
@@ -654,7 +943,11 @@ def bundle_cmd(
             from obvert.emitter.catalogue import catalogue_files
 
             files = catalogue_files(
-                catalogue, manifests, table_version=table_version, private_key_pem=key_pem
+                catalogue,
+                manifests,
+                table_version=table_version,
+                private_key_pem=key_pem,
+                flash_budget_bytes=flash_budget,
             )
             files[out_file.name] = files.pop(f"{catalogue}.bundle")
     except (EmitError, ManifestError) as exc:

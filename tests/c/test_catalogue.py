@@ -19,7 +19,7 @@ from obvert.emitter import EmitError
 from obvert.emitter.catalogue import catalogue_files
 from obvert.firmware.bundle import name_id, parse_bundle
 
-from .conftest import build_program
+from .conftest import build_program, compile_units
 from .manifests import cells_manifest
 from .test_bundle_loader import _expected_line, _queries, real_manifest
 
@@ -117,3 +117,77 @@ def test_catalogue_data_is_the_bundle_and_refuses_bad_names(tmp_path):
                "--error-exitcode=1", "-q", f"-I{tmp_path}", source]  # fmt: skip
         proc = subprocess.run(cmd, capture_output=True, text=True, timeout=300)
         assert proc.returncode == 0 and not proc.stderr.strip(), proc.stderr
+
+
+USER_UNIT = r"""
+#include "line_menu.h"
+int firmware_start(void);
+int firmware_start(void) { return (int)line_menu_catalogue_check(); }
+"""
+
+
+def test_flash_budget_static_assert_fires(host_cc, tmp_path):
+    """The C byte count equals the bundle's: a budget of exactly that many bytes builds, one
+    byte less stops the build of line_menu.c at the budget check (ISO C99 6.7.5.2: an array
+    of negative size is a constraint violation, so every conforming compiler refuses it)."""
+    files = catalogue_files("line_menu", _manifests(), table_version=2)
+    size = len(files.pop("line_menu.bundle"))
+    files.pop("line_menu.json")
+    header = files["line_menu.h"].decode()
+    line = "#define LINE_MENU_FLASH_BUDGET_BYTES 65536UL"
+    assert line in header and f"#define LINE_MENU_CATALOGUE_BYTES {size}u" in header
+    for budget, ok in ((size, True), (size - 1, False), (65536, True)):
+        files["line_menu.h"] = header.replace(line, line.replace("65536", str(budget))).encode()
+        problems = compile_units(host_cc, tmp_path, files, USER_UNIT)
+        assert (not problems) is ok, problems
+        if not ok:
+            assert [u for u, _ in problems] == ["line_menu.c"]
+            assert "line_menu_check_flash_budget" in problems[0][1]
+    # the Python side refuses such a budget before writing any C
+    with pytest.raises(EmitError, match=f"needs {size} bytes"):
+        catalogue_files("line_menu", _manifests(), table_version=2, flash_budget_bytes=size - 1)
+    small = catalogue_files("line_menu", _manifests(), table_version=2, flash_budget_bytes=size)
+    assert f"#define LINE_MENU_FLASH_BUDGET_BYTES {size}UL" in small["line_menu.h"].decode()
+
+
+CORTEX_M0 = ("-mcpu=cortex-m0", "-mthumb", "-Os", "-ffreestanding")
+INTEGER_HELPERS = {
+    "__aeabi_lmul", "__aeabi_llsl", "__aeabi_llsr", "__aeabi_lasr", "__aeabi_idiv",
+    "__aeabi_uidiv", "__aeabi_idivmod", "__aeabi_uidivmod", "__aeabi_ldivmod", "__aeabi_uldivmod",
+}  # fmt: skip
+
+
+def test_catalogue_compiles_for_cortex_m0(tmp_path):
+    """The catalogue (loader, lookup and data) compiles for an Armv6-M core without an FPU or
+    a C library: arm-none-eabi-gcc, -std=c99 -Wall -Wextra -Werror -pedantic, freestanding
+    (ISO C99 4p6: a freestanding program may use <stddef.h> and <stdint.h> only)."""
+    if not shutil.which("arm-none-eabi-gcc"):
+        pytest.skip("arm-none-eabi-gcc not installed (apt-get install gcc-arm-none-eabi)")
+    files = catalogue_files("line_menu", _manifests(), table_version=2)
+    for name, data in files.items():
+        (tmp_path / name).write_bytes(data)
+    (tmp_path / "user.c").write_text(USER_UNIT)
+    flags = ["-std=c99", "-Wall", "-Wextra", "-Werror", "-pedantic", *CORTEX_M0]
+    for unit in ("line_menu.c", "user.c"):
+        cmd = ["arm-none-eabi-gcc", *flags, "-c", str(tmp_path / unit), "-o",
+               str(tmp_path / f"{unit}.o")]  # fmt: skip
+        proc = subprocess.run(cmd, capture_output=True, text=True, timeout=120)
+        assert proc.returncode == 0 and not proc.stderr.strip(), proc.stderr
+    # No C library, no heap, no floating point: the only calls leaving the object are the
+    # compiler's own integer helpers of the Arm run-time ABI (libgcc), e.g. the 64-bit
+    # multiply of the block-size check (Arm IHI 0043, "Run-time ABI for the Arm
+    # Architecture", section 4.2 integer helpers; the float helpers are __aeabi_f*/d*).
+    nm = subprocess.run(
+        ["arm-none-eabi-nm", "-u", str(tmp_path / "line_menu.c.o")],
+        capture_output=True, text=True, timeout=60, check=True,
+    )  # fmt: skip
+    undefined = set(nm.stdout.split()) - {"U"}
+    assert undefined <= INTEGER_HELPERS, undefined
+
+
+@pytest.mark.parametrize("level", ["-O0", "-O1", "-O2", "-O3", "-Os"])
+def test_catalogue_is_clean_at_every_optimisation_level(host_cc, tmp_path, level):
+    """-std=c99 -Wall -Wextra -Werror -pedantic at -O0..-Os (the static asserts included)."""
+    files = catalogue_files("line_menu", _manifests(), table_version=2)
+    problems = compile_units(host_cc, tmp_path, files, USER_UNIT, (level,))
+    assert not problems, problems

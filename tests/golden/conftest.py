@@ -22,6 +22,9 @@ TESTS = Path(__file__).resolve().parents[1]
 GOLDEN = Path(__file__).resolve().parent
 REAL_MANIFEST = GOLDEN / "input" / "test_patty.json"
 SMALL_SPEC = TESTS / "cli" / "small_spec.toml"
+#: A second real product for the same appliance (catalogue goldens).
+SLIDER_MANIFEST = GOLDEN / "input" / "test_slider.json"
+SLIDER_SPEC = TESTS / "cli" / "small_slider_spec.toml"
 REFRESH = os.environ.get("OBVERT_REFRESH_GOLDEN") == "1"
 #: Every built-in target; the real table is certified for the rules all of them use.
 TARGETS = ("c99", "c99_fixed", "c99_bilinear", "c99_fixed_bilinear", "json")
@@ -40,12 +43,12 @@ _BASE = _load("obvert_tests_manifest_base", TESTS / "conftest_manifest.py")
 _CELLS = _load("obvert_tests_cells_manifest", TESTS / "c" / "manifests.py")
 
 
-def build_real_manifest() -> dict:
-    """The small test spec through the real pipeline: compile for every target, manifest."""
+def build_real_manifest(spec_file: Path = SMALL_SPEC) -> dict:
+    """A small test spec through the real pipeline: compile for every target, manifest."""
     import obvert
     from obvert.spec import load_spec
 
-    table = obvert.compile_table(load_spec(SMALL_SPEC), list(TARGETS))
+    table = obvert.compile_table(load_spec(spec_file), list(TARGETS))
     return obvert.table.manifest(table)
 
 
@@ -69,3 +72,14 @@ def make_manifest():
 def make_cells_manifest():
     """Factory of synthetic manifests with cells and tolerances (invented numbers)."""
     return _CELLS.cells_manifest
+
+
+@pytest.fixture(scope="session")
+def slider_manifest() -> dict:
+    """The stored real manifest of the second small product (rebuilt on refresh)."""
+    if REFRESH:
+        SLIDER_MANIFEST.write_bytes(canonical_json(build_real_manifest(SLIDER_SPEC)))
+    assert SLIDER_MANIFEST.is_file(), (
+        f"missing {SLIDER_MANIFEST}; refresh with OBVERT_REFRESH_GOLDEN=1"
+    )
+    return json.loads(SLIDER_MANIFEST.read_text(encoding="utf-8"))

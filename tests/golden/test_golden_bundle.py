@@ -1,10 +1,14 @@
-"""Bundles and the C bundle loader equal their reviewed golden files byte for byte.
+"""Bundles, catalogues and the C bundle loader equal their reviewed golden files byte for byte.
 
 The bundle is the real manifest (tests/golden/input, built by the real pipeline from
 tests/cli/small_spec.toml) at table version 1, signed with the RFC 8032 section 7.1 test 1
 key (a published test key, never a production key); a second golden bundle holds two
-synthetic products unsigned. Refresh only deliberately: ``OBVERT_REFRESH_GOLDEN=1 python -m
-pytest tests/golden``.
+synthetic products unsigned. The catalogue of ``obvert build --catalogue`` is made by
+``obvert.emit_catalogue`` from the products' manifests: its golden files come from the two
+real manifests (test_patty and test_slider, the second built from
+tests/cli/small_slider_spec.toml), signed with the same test key; tests/cli checks that the
+command writes exactly what that function gives for the tables it built. Refresh only
+deliberately: ``OBVERT_REFRESH_GOLDEN=1 python -m pytest tests/golden``.
 """
 
 from __future__ import annotations
@@ -14,7 +18,7 @@ from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey
 
 from obvert.emitter import emit, load_target
 from obvert.emitter.bundle import bundle_bytes
-from obvert.firmware.bundle import verify_bundle
+from obvert.firmware.bundle import name_id, verify_bundle
 
 from .conftest import GOLDEN
 from .test_golden import _compare
@@ -62,3 +66,21 @@ def test_catalogue_equals_golden_files(make_cells_manifest):
     for m in products:
         m["spec"]["appliance"] = {"name": "Brinecliff line griddle"}
     _compare(catalogue_files("brinecliff_menu", products, table_version=7), GOLDEN / "catalogue")
+
+
+def test_build_catalogue_equals_golden_files(real_manifest, slider_manifest):
+    """Every output of a catalogue of two real products: .h, .c, .bundle and .json."""
+    import obvert
+    from obvert.firmware.catalogue import loads_catalogue
+
+    private, public = _test_key()
+    files = obvert.emit_catalogue(
+        "test_menu", [real_manifest, slider_manifest], table_version=1, private_key_pem=private
+    )
+    assert sorted(files) == ["test_menu.bundle", "test_menu.c", "test_menu.h", "test_menu.json"]
+    assert len(verify_bundle(files["test_menu.bundle"], public).products) == 2
+    cat = loads_catalogue(files["test_menu.json"])
+    assert cat.manifests == tuple(
+        sorted([real_manifest, slider_manifest], key=lambda m: name_id(m["table"]["name"]))
+    )
+    _compare(files, GOLDEN / "catalogue_build")

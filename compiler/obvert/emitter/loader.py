@@ -67,7 +67,7 @@ def loader_context(manifest: Mapping[str, Any], target: Any, header: str) -> dic
 
 
 def catalogue_context(
-    name: str, bundle: bytes, tables: Sequence[str], appliance: str
+    name: str, bundle: bytes, tables: Sequence[str], appliance: str, budget: int
 ) -> dict[str, Any]:
     """Context of a catalogue: the loader named ``name`` with ``bundle`` compiled in.
 
@@ -81,12 +81,14 @@ def catalogue_context(
         Table names of its products (their ids name the product macros).
     appliance : str
         The appliance name the bundle is for.
+    budget : int
+        Flash budget of the compiled-in data, bytes (a static assert holds it).
 
     Returns
     -------
     dict
         As :func:`loader_context`, with one product row per table and ``catalogue`` holding
-        the data rows (text of 12 bytes each) and the byte count.
+        the data rows (text of 12 bytes each), the byte count and the budget.
     """
     parsed = parse_bundle(bundle, appliance_model=name_id(appliance))
     if parsed.table_version < 1:
@@ -106,5 +108,6 @@ def catalogue_context(
         "rows": rows,
         "n_bytes": len(bundle),
         "table_version": parsed.table_version,
+        "budget": budget,
     }
     return out

@@ -423,6 +423,11 @@ const uint8_t brinecliff_menu_catalogue_data[BRINECLIFF_MENU_CATALOGUE_BYTES] = 
     0x00u, 0x00u, 0x00u, 0x00u, 0x00u, 0x00u, 0x00u, 0x00u,
 };
 
+/* Compile-time checks (C99: a negative array size stops the build). The bundle is the
+ * catalogue's only const data; the loader's code has no tables. */
+typedef char brinecliff_menu_check_catalogue_bytes[(sizeof brinecliff_menu_catalogue_data == BRINECLIFF_MENU_CATALOGUE_BYTES) ? 1 : -1];
+typedef char brinecliff_menu_check_flash_budget[(BRINECLIFF_MENU_CATALOGUE_BYTES <= BRINECLIFF_MENU_FLASH_BUDGET_BYTES) ? 1 : -1];
+
 brinecliff_menu_bundle_status_t brinecliff_menu_catalogue_check(void)
 {
     return brinecliff_menu_bundle_check(brinecliff_menu_catalogue_data, sizeof brinecliff_menu_catalogue_data,

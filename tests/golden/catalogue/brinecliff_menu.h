@@ -104,6 +104,9 @@ int brinecliff_menu_bundle_lookup(const uint8_t *data, size_t size, uint32_t pro
 /* The catalogue: a bundle of its products compiled in as const data (flash). */
 #define BRINECLIFF_MENU_CATALOGUE_BYTES 1196u
 #define BRINECLIFF_MENU_CATALOGUE_TABLE_VERSION 7u
+/* Most bytes of const data (flash) the catalogue may take; the .c file stops the build
+ * (a static assert) when the compiled-in bundle is larger. */
+#define BRINECLIFF_MENU_FLASH_BUDGET_BYTES 65536UL
 extern const uint8_t brinecliff_menu_catalogue_data[BRINECLIFF_MENU_CATALOGUE_BYTES];
 
 /* Check the compiled-in bundle (CRC, model, every offset and entry); run it once at start-up
