@@ -53,3 +53,22 @@ def test_certification_finds_the_earliest_passing_done() -> None:
     cert = certify([case], start, TICK)
     assert cert.schedule.done_s == pytest.approx(first, abs=1e-9)
     assert cert.verdict.passed and cert.extension_s == pytest.approx(first - start.done_s)
+
+
+@pytest.mark.parametrize(("flip", "done"), [(70.0, 120.0), (60.0, 130.0), (85.0, 140.0)])
+def test_the_short_read_off_ends_where_the_full_one_does(monkeypatch, flip, done) -> None:
+    """Certification first reads off a run ended at its first passing row, then confirms it.
+
+    The full read-off (every row to twice the planned done, each passing stretch confirmed
+    and bisected with exact runs) must end on the same tick on ordinary patties.
+    """
+    import obvert.certify.node as node
+
+    case = problem_of(load_spec(SPEC)).cases_at(0.008, -6.0)[0]
+    short = Schedule((Event("flip", flip), Event("done", done)))
+    quick = certify([case], short, TICK, max_extension=3.0)
+    monkeypatch.setattr(node, "_first_passing_tick", lambda *args: None)
+    full = certify([case], short, TICK, max_extension=3.0)
+    assert quick.extension_s > 0.0  # the read-off was needed
+    assert quick.schedule == full.schedule
+    assert quick.verdict == full.verdict

@@ -288,10 +288,38 @@ def _binding_error(cases: Sequence[Case], schedule: Schedule, refinement: int) -
 CONFIRM_TRIES = 8
 
 
-def _passing_curve(case: Case, long: Schedule) -> tuple[np.ndarray, np.ndarray]:
-    """Times and pass/fail of every row of one run of ``long`` (food left on the plate)."""
-    t_s, slack = slack_rows(case, long)
+def _passing_curve(
+    case: Case, long: Schedule, end_at_pass_after_s: float | None = None
+) -> tuple[np.ndarray, np.ndarray]:
+    """Times and pass/fail of every row of one run of ``long`` (food left on the plate).
+
+    With ``end_at_pass_after_s`` the run ends at its first passing row at or after that time
+    (:func:`obvert.certify.history.slack_rows`).
+    """
+    t_s, slack = slack_rows(case, long, end_at_pass_after_s)
     return t_s, slack >= 0.0
+
+
+def _first_passing_tick(
+    cases: tuple[Case, ...], schedule: Schedule, tick_s: float, first: int, limit: int
+) -> tuple[Schedule, Verdict] | None:
+    """The first done tick in ``[first, limit]`` the history passes, if an exact run passes it.
+
+    Each case's run ends at its first passing row, so this costs about one run of the
+    schedule per case, and one exact run per case to confirm (None: nothing confirmed here).
+    """
+    long = schedule.with_done(limit * tick_s)
+    ticks = np.arange(first, limit + 1)
+    ok = np.ones(ticks.size, dtype=bool)
+    for c in cases:
+        t_rows, pass_rows = _passing_curve(c, long, first * tick_s - 1e-9)
+        idx = np.clip(np.searchsorted(t_rows, ticks * tick_s - 1e-9), 0, t_rows.size - 1)
+        ok &= pass_rows[idx]
+    if not ok.any():
+        return None
+    trial = schedule.with_done(int(ticks[int(np.argmax(ok))]) * tick_s)
+    verdict = judge_all(cases, trial)
+    return (trial, verdict) if verdict.passed else None
 
 
 def _read_off_one_run(
@@ -306,6 +334,9 @@ def _read_off_one_run(
     """
     if any(c.requirement.rest_s > 0.0 for c in cases):
         return None
+    quick = _first_passing_tick(cases, schedule, tick_s, first, limit)
+    if quick is not None:  # where the bisection below ends when passing is monotonic
+        return quick
     long = schedule.with_done(limit * tick_s)
     ticks = np.arange(first, limit + 1)
     ok = np.ones(ticks.size, dtype=bool)

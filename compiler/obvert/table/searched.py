@@ -33,9 +33,20 @@ from obvert.search import (
     search_events,
     seed_from,
 )
-from obvert.search.events import predict
+from obvert.search.events import (
+    DWELL_TOLERANCE_S,
+    NEAR_RADIUS_S,
+    SCREEN_TOLERANCE_S,
+    predict,
+)
 from obvert.table.entry import BuildError, certified_node, node_name
 from obvert.table.model import Candidate, Node
+
+#: Trust region of a screening search from a predicted start: first and last radius, s.
+SCREEN = (NEAR_RADIUS_S, SCREEN_TOLERANCE_S)
+
+#: Screened sequences whose cost is within this of the least cost are searched on, s.
+POLISH_BAND_S = 0.3
 
 #: Per event sequence, (start temperature degC, dwells s, done s) of the row's nodes so far.
 History = dict[tuple[str, ...], list[tuple[float, tuple[float, ...], float]]]
@@ -73,13 +84,14 @@ def _search(
 ) -> tuple[Searched, int]:
     """Search from the first start; the others only if it fails or is no faster than ``fewer``.
 
-    Each start is (dwells in s, whether it was predicted from neighbouring nodes).
+    Each start is (dwells in s, whether it was predicted from neighbouring nodes); a
+    predicted start is screened (to :data:`SCREEN_TOLERANCE_S`), the others are searched.
     """
     best: Searched | None = None
     runs, errors = 0, []
     for start, near in starts:
         try:
-            res = search_events(cases, seq, start, hint_s, near=near)
+            res = search_events(cases, seq, start, hint_s, near=near, radius_s=SCREEN)
         except SearchError as exc:
             errors.append(str(exc))
             continue
@@ -109,14 +121,14 @@ def _node(
     bounds = limits(coarse[0])
     hint = 1.2 * max((v for v in bounds.values() if v is not None), default=600.0)
     found: dict[tuple[str, ...], Searched] = {}
-    cands: list[Candidate] = []
-    total_runs = 0
+    why_not: dict[tuple[str, ...], str] = {}
+    runs_of: dict[tuple[str, ...], int] = {}
     for kinds in problem.sequences:
         seq = Sequence(kinds, a.min_event_gap_s, a.flip_air_s)
         fewer = found.get(kinds[:-1]) if kinds and kinds[-1] == "flip" else None
         unpaid = _unpaid(kinds, found, p.flip_cost_s)
         if unpaid is not None:
-            cands.append(Candidate(kinds.count("flip"), None, unpaid, kinds))
+            why_not[kinds] = unpaid
             continue
         starts: list[tuple[tuple[float, ...], bool]] = []
         if kinds in history:
@@ -125,24 +137,36 @@ def _node(
             starts.append((seed_from(found[kinds[:-1]], seq), False))
         starts.append((_cold_start(seq, hint), False))
         try:
-            res, runs = _search(coarse, seq, starts, hint, fewer)
+            found[kinds], runs_of[kinds] = _search(coarse, seq, starts, hint, fewer)
         except SearchError as exc:
-            cands.append(Candidate(kinds.count("flip"), None, str(exc), kinds))
-            continue
-        total_runs += runs
-        found[kinds] = res
-        history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
-        note = f"searched: {res.status} ({runs} run{'' if runs == 1 else 's'} of the search mesh)"
-        cands.append(Candidate(kinds.count("flip"), res.done_s, note, kinds))
+            why_not[kinds] = str(exc)
     if not found:
         raise BuildError(
-            f"{node_name(at)}: no event sequence reaches the target: "
-            + "; ".join(c.note for c in cands)
+            f"{node_name(at)}: no event sequence reaches the target: " + "; ".join(why_not.values())
         )
 
     def cost(r: Searched) -> float:
         return r.done_s + r.seq.kinds.count("flip") * p.flip_cost_s
 
+    # the screened sequences within reach of the fastest are searched on to full tolerance
+    best_cost = min(cost(r) for r in found.values())
+    for kinds, res in found.items():
+        if res.status.startswith("screened") and cost(res) <= best_cost + POLISH_BAND_S:
+            finer = _polish(coarse, res)
+            runs_of[kinds] += finer.runs
+            found[kinds] = finer if finer.done_s <= res.done_s else res
+    for kinds, res in found.items():
+        history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
+    total_runs = sum(runs_of.values())
+    cands = []
+    for kinds in problem.sequences:
+        if kinds in found:
+            n = runs_of[kinds]
+            runs = f"{n} run{'' if n == 1 else 's'} of the search mesh"
+            note = f"searched: {found[kinds].status} ({runs})"
+            cands.append(Candidate(kinds.count("flip"), found[kinds].done_s, note, kinds))
+        else:
+            cands.append(Candidate(kinds.count("flip"), None, why_not[kinds], kinds))
     choice = min(found.values(), key=cost)  # ties: the first (fewer events) wins
     seq = choice.seq
     ticked = quantize(
@@ -160,7 +184,7 @@ def _node(
     ticked = seq.schedule(dwell, max(planned, seq.earliest_done_s(dwell)))
     ticked = quantize(ticked, a.tick_s, a.min_event_gap_s, a.flip_air_s)
     stricter_by = (p.min_margin_log + error[0], error[1])
-    nominal = _nominal(problem, at, choice, stricter_by, nominal_history)
+    nominal = _nominal(problem, at, choice, stricter_by, (history, nominal_history))
     node, cert = certified_node(
         problem,
         cases,
@@ -183,6 +207,39 @@ def _node(
     )
     err = (cert.error.log, cert.error.temp_k) if cert.error else (0.0, 0.0)
     return node, err
+
+
+def _polish(cases: tuple[Case, ...], screened: Searched) -> Searched:
+    """``screened`` searched on from its dwells to :data:`DWELL_TOLERANCE_S` (itself on failure)."""
+    try:
+        res = search_events(
+            cases,
+            screened.seq,
+            screened.dwell_s,
+            screened.done_s,
+            near=True,
+            radius_s=(SCREEN_TOLERANCE_S, DWELL_TOLERANCE_S),
+        )
+    except SearchError:
+        return screened
+    return res
+
+
+def _nominal_start(
+    history: History, robust_history: History, robust: Searched, t0: float
+) -> tuple[float, ...]:
+    """Start of the nominal search at ``t0``: the robust dwells times their last ratio, s.
+
+    The nominal plan's dwells relative to the robust plan's change slowly along a row, even
+    where both jump at the freezing point; with no earlier node, the robust dwells.
+    """
+    kinds = robust.seq.kinds
+    nom = [e for e in history.get(kinds, ()) if e[0] != t0]
+    rob = {e[0]: e[1] for e in robust_history.get(kinds, ()) if e[0] != t0}
+    if not nom or nom[-1][0] not in rob:
+        return robust.dwell_s
+    ratio = np.asarray(nom[-1][1]) / np.asarray(rob[nom[-1][0]])
+    return tuple(float(v) for v in np.asarray(robust.dwell_s) * ratio)
 
 
 def _extrapolated(history: History, kinds: tuple[str, ...], t0: float) -> tuple[np.ndarray, float]:
@@ -248,12 +305,12 @@ def _nominal(
     at: tuple[float, float],
     robust: Searched,
     stricter_by: tuple[float, float],
-    history: History,
+    histories: tuple[History, History],
 ) -> float | None:
     """Done time of the chosen sequence at nominal conditions, s (None: no tolerances).
 
-    Searched from the nominal optima of the row's earlier nodes with the same sequence
-    (predicted as for the robust plans), else from the robust event times; read off the
+    Searched from the robust event times, scaled as the nominal ones were at the row's
+    previous node (``histories``: robust and nominal, :func:`_nominal_start`); read off the
     reference against the same raised target as the robust plan, so that the price of
     robustness compares like with like.
     """
@@ -263,13 +320,10 @@ def _nominal(
     ref = problem.case(nom, *at)
     coarse = (replace(ref, settings=problem.search),)
     kinds = robust.seq.kinds
-    start = (
-        tuple(predict([(t, d) for t, d, _ in history[kinds][-2:]], at[1]))
-        if kinds in history
-        else robust.dwell_s
-    )
+    robust_history, history = histories
+    start = _nominal_start(history, robust_history, robust, at[1])
     try:
-        res = search_events(coarse, robust.seq, start, robust.done_s, near=True)
+        res = search_events(coarse, robust.seq, start, robust.done_s, near=True, radius_s=SCREEN)
     except SearchError:
         return None
     history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
