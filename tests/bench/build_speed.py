@@ -6,9 +6,9 @@ Printed, all in one run (figures are ratios against baselines measured in the sa
 
 * the demo build (the production-size demo ``griddle_line``: 10 thicknesses by 8 start
   temperatures, up to 4 flips, tolerances on; or a 2 x 2 corner of it with ``--quick``):
-  wall time, nodes, and per thickness row the cost of a node in units of one reference run
-  of that node's certified schedule (the row's wall time over its nodes, divided by the
-  time of one reference run of the schedule at the spec's reference settings);
+  wall time and nodes; then every row again in this process, each node's own CPU time in
+  units of one reference run of that node's certified schedule (CPU time of one run of the
+  schedule at the spec's reference settings);
 * cold against warm: one node of the demo (12 mm from -14 degC) searched for 2 and for 4
   flips from evenly spaced flips and from the prediction of its two neighbours at -18 and
   -10 degC (continuation; simplex, and the trust region the build uses), in runs of the
@@ -59,21 +59,50 @@ def build_figures(spec: obvert.Spec, jobs: int) -> None:
     wall = time.perf_counter() - t0
     n = len(table.nodes)
     print(f"demo build: {n} nodes, {wall:.1f} s wall on {jobs} job(s), {wall / n:.2f} s per node")
+    node_costs(spec, table)
+
+
+def node_costs(spec: obvert.Spec, table: obvert.CookTable) -> None:
+    """Each node's own CPU time (the rows again, in this process) over one reference run."""
+    import statistics
+
+    import obvert.table.searched as searched
+
+    spent: dict[tuple[int, int], float] = {}
+    plain = searched._node
+
+    def timed(problem, i, j, *args):  # noqa: ANN001, ANN202 (a benchmark's wrapper)
+        t1 = time.process_time()
+        try:
+            return plain(problem, i, j, *args)
+        finally:
+            spent[(i, j)] = time.process_time() - t1
+
     problem = problem_of(spec)
+    searched._node = timed
+    try:
+        for i in range(len(spec.grid.thickness_m)):
+            searched.search_row(problem, i)
+    finally:
+        searched._node = plain
     n_t = len(spec.grid.start_temp_c)
-    for i, thick in enumerate(spec.grid.thickness_m):
-        for j in range(n_t):
-            node = table.nodes[i * n_t + j]
-            case = problem.cases_at(node.thickness_m, node.start_temp_c)[0]
-            t1 = time.perf_counter()
-            judge(case, node.schedule)
-            one = time.perf_counter() - t1
-            share = wall / n * jobs  # CPU share of a node (rows run in parallel)
-            print(
-                f"  {thick * 1e3:5.1f} mm {node.start_temp_c:6.1f} degC: {node.schedule.flips} "
-                f"flip(s), cook {node.schedule.done_s:7.1f} s, one reference run {one:.3f} s, "
-                f"node cost about {share / one:6.1f} reference runs"
-            )
+    ratios = []
+    for node in table.nodes:
+        case = problem.cases_at(node.thickness_m, node.start_temp_c)[0]
+        t1 = time.process_time()
+        judge(case, node.schedule)
+        one = time.process_time() - t1
+        cpu = spent[(node.i, node.j)]
+        ratios.append(cpu / one)
+        print(
+            f"  {node.thickness_m * 1e3:5.1f} mm {node.start_temp_c:6.1f} degC: "
+            f"{node.schedule.flips} flip(s), cook {node.schedule.done_s:7.1f} s, node "
+            f"{cpu:6.2f} s CPU, one reference run {one:.3f} s: {cpu / one:6.1f} reference runs"
+        )
+    print(
+        f"node cost in reference runs of itself: median {statistics.median(ratios):.1f}, "
+        f"min {min(ratios):.1f}, max {max(ratios):.1f} ({len(ratios)} nodes of {n_t} per row)"
+    )
 
 
 def _earliest_done(cases, flips: tuple[float, ...], tick: float, done_guess: float) -> float | None:

@@ -158,7 +158,7 @@ def simulate_many(
     cases = list(cases)
     for i, case in enumerate(cases):
         _check_case(table, case, settings.n_cells, i)
-    lookup = kernel.PropertyLookup(table)
+    lookup = kernel.lookup_for(table)
     n = settings.n_cells
     out: list[ReferenceSummary] = []
     for case in cases:

@@ -329,7 +329,7 @@ def _run(
     start = np.asarray(start_temp_c, dtype=float)
     check_inputs(table, float(thickness_m), start, phases, n)
     out = kernel.run_case(
-        kernel.PropertyLookup(table),
+        kernel.lookup_for(table),
         float(thickness_m),
         np.broadcast_to(start, (n,)).astype(float),
         list(phases),
