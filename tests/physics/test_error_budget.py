@@ -77,3 +77,9 @@ def test_budget_settings_are_checked() -> None:
         ErrorBudget(min_margin_log=-0.1)
     with pytest.raises(ValueError, match="refinement = 1"):
         ErrorBudget(refinement=1)
+
+
+def test_the_estimate_reuses_a_verdict_already_run_without_changing_it() -> None:
+    case = _case()
+    sched = _shortest(case)
+    assert reference_error(case, sched, 2, judge(case, sched)) == reference_error(case, sched, 2)

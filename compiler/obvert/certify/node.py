@@ -108,7 +108,9 @@ class ReferenceError:
 SAFETY_FACTOR = 1.5
 
 
-def reference_error(case: Case, schedule: Schedule, refinement: int) -> ReferenceError:
+def reference_error(
+    case: Case, schedule: Schedule, refinement: int, coarse: Verdict | None = None
+) -> ReferenceError:
     """Richardson estimate of the reference's error for ``schedule`` in ``case``.
 
     Parameters
@@ -119,6 +121,9 @@ def reference_error(case: Case, schedule: Schedule, refinement: int) -> Referenc
         Event times, s.
     refinement : int
         Factor on the cells and divisor of the time step of the check run.
+    coarse : Verdict, optional
+        :func:`judge` of ``schedule`` in ``case``, when already run (the same numbers; it
+        is run here otherwise).
 
     Returns
     -------
@@ -131,7 +136,8 @@ def reference_error(case: Case, schedule: Schedule, refinement: int) -> Referenc
         case,
         settings=replace(st, n_cells=st.n_cells * refinement, dt_max_s=st.dt_max_s / refinement),
     )
-    a, b = judge(case, schedule), judge(fine, schedule)
+    a = coarse if coarse is not None else judge(case, schedule)
+    b = judge(fine, schedule)
     factor = SAFETY_FACTOR * refinement**2 / (refinement**2 - 1.0)
     return ReferenceError(
         factor * abs(a.min_log_reduction - b.min_log_reduction),
@@ -245,7 +251,7 @@ def certify(
     if budget is None:
         return cert
     for _ in range(4):  # the error hardly moves with done: one more round is the rule
-        err = _binding_error(cases, cert.schedule, budget.refinement)
+        err = _binding_error(cases, cert.schedule, budget.refinement, cert.verdict)
         need = err.log + budget.min_margin_log
         floor = cases[0].requirement.min_temp_c
         temp_ok = floor is None or cert.verdict.min_temp_at_removal_c >= floor + err.temp_k
@@ -272,15 +278,23 @@ def raised(case: Case, extra_log: float, extra_k: float) -> Case:
     )
 
 
-def _binding_error(cases: Sequence[Case], schedule: Schedule, refinement: int) -> ReferenceError:
-    """Reference error of the scenario(s) that bind: smallest log reduction, coldest point."""
+def _binding_error(
+    cases: Sequence[Case], schedule: Schedule, refinement: int, verdict: Verdict
+) -> ReferenceError:
+    """Reference error of the scenario(s) that bind: smallest log reduction, coldest point.
+
+    ``verdict`` is :func:`judge_all` of ``schedule`` in ``cases`` (with one scenario, that
+    scenario's own verdict: its run is not repeated).
+    """
     if len(cases) == 1:  # one scenario binds both; no run needed to find it
-        k_lr = k_t = 0
+        verdicts = [verdict]
     else:
         verdicts = [judge(c, schedule) for c in cases]
-        k_lr = int(np.argmin([v.min_log_reduction for v in verdicts]))
-        k_t = int(np.argmin([v.min_temp_at_removal_c for v in verdicts]))
-    errs = [reference_error(cases[k], schedule, refinement) for k in sorted({k_lr, k_t})]
+    k_lr = int(np.argmin([v.min_log_reduction for v in verdicts]))
+    k_t = int(np.argmin([v.min_temp_at_removal_c for v in verdicts]))
+    errs = [
+        reference_error(cases[k], schedule, refinement, verdicts[k]) for k in sorted({k_lr, k_t})
+    ]
     return ReferenceError(max(e.log for e in errs), max(e.temp_k for e in errs))
 
 
