@@ -136,8 +136,11 @@ def search_events(
         The start is close to the optimum (predicted from neighbouring nodes): search with
         quadratic models in a trust region (``radius_s``) instead of the simplex.
     radius_s : (float, float)
-        First and last trust-region radius of a ``near`` search, s (the last one is the
-        tolerance of the dwells found).
+        First and last trust-region radius of a ``near`` search, s. The last one is the
+        tolerance of the dwells found either way (the simplex stops when it is that narrow,
+        and its done times within that tolerance times
+        ``DONE_TOLERANCE_S / DWELL_TOLERANCE_S``); above :data:`DWELL_TOLERANCE_S` the search
+        is a screening (status "screened to ... s").
 
     Returns
     -------
@@ -187,8 +190,8 @@ def search_events(
             method="Nelder-Mead",
             options={
                 "initial_simplex": simplex,
-                "xatol": DWELL_TOLERANCE_S,
-                "fatol": DONE_TOLERANCE_S,
+                "xatol": radius_s[1],
+                "fatol": DONE_TOLERANCE_S * radius_s[1] / DWELL_TOLERANCE_S,
                 "maxfev": MAX_EVALUATIONS,
             },
         )
@@ -198,7 +201,7 @@ def search_events(
         raise SearchError(f"sequence {seq.kinds}: the search found no passing point")
     if not res.success:
         status = f"stopped after {runs[0]} runs"
-    elif near and radius_s[1] > DWELL_TOLERANCE_S:
+    elif radius_s[1] > DWELL_TOLERANCE_S:
         status = f"screened to {radius_s[1]:g} s"
     else:
         status = "converged"
