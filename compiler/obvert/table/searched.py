@@ -1,14 +1,18 @@
 """One thickness row of the table planned by direct search of event times.
 
-Per node, every event sequence the appliance allows is searched on the coarse mesh
-(:func:`obvert.search.search_events`), starting from the same sequence's event times at the
-row's earlier nodes (extrapolated along the start temperature), or else from the optimum with
-one event fewer. The sequence of least cost (cook time plus ``flip_cost`` per flip, on the
-search mesh) wins. Its event times are put on whole ticks, and its done time is read off one
-reference run per scenario, against the target raised by the margin certification will ask
-for (the spec's minimum plus the reference error measured at the previous node of the row),
-so that certification usually passes at its first run. Certification then decides, as for
-any plan (:func:`obvert.table.entry.certified_node`).
+Per node, the event sequences the appliance allows are screened on the coarse mesh
+(:func:`obvert.search.search_events`, to :data:`SCREEN_TOLERANCE_S`), each starting from its
+own event times at the row's earlier nodes (extrapolated along the start temperature and
+rescaled by how far the sequence with one event fewer moved, which follows the jump at the
+freezing point), or else from the optimum with one event fewer. A further flip is not
+searched once the flip before it saved no more than the flip cost (each flip saves less than
+the one before). The screened sequences within :data:`POLISH_BAND_S` of the least cost (cook
+time plus ``flip_cost`` per flip, on the search mesh) are searched on to the full tolerance,
+and the least cost wins. Its event times are put on whole ticks, and its done time is read
+off one reference run per scenario, against the target raised by the margin certification
+will ask for (the spec's minimum plus the reference error measured at the previous node of
+the row), so that certification usually passes at its first run. Certification then
+decides, as for any plan (:func:`obvert.table.entry.certified_node`).
 
 The nodes of a row are solved in order of start temperature, each from the ones before it,
 whichever worker runs the row: the result does not depend on how the rows are shared out.
