@@ -158,7 +158,9 @@ def _node(
         if res.status.startswith("screened") and cost(res) <= best_cost + POLISH_BAND_S:
             finer = _polish(coarse, res)
             runs_of[kinds] += finer.runs
-            found[kinds] = finer if finer.done_s <= res.done_s else res
+            if finer.done_s > res.done_s:  # nothing faster within the finer tolerance
+                finer = replace(res, status=finer.status)
+            found[kinds] = finer
     for kinds, res in found.items():
         history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
     total_runs = sum(runs_of.values())
