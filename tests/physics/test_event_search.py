@@ -181,3 +181,16 @@ def test_each_further_flip_shortens_the_cook_less_than_the_one_before(thick, t0)
     gains = -np.diff(done)  # the last can be negative: the appliance's event gaps bind
     assert gains[0] > 0.0, done
     assert np.all(np.diff(gains) < 0.0), (done, gains)
+
+
+def test_the_chosen_sequence_of_every_node_is_searched_to_full_tolerance() -> None:
+    """Sequences are screened to 0.5 s; the one a node keeps is always searched on."""
+    from obvert.table.searched import search_row
+
+    nodes = search_row(PROBLEM, 0)  # 6 mm from -6 and from 4 degC, up to the demo's flips
+    assert len(nodes) == 2
+    for node in nodes:
+        kinds = tuple(e.kind for e in node.schedule.events if e.kind != "done")
+        kept = [c for c in node.candidates if tuple(c.sequence) == kinds]
+        assert len(kept) == 1, node.candidates
+        assert kept[0].note.startswith("searched: converged"), kept[0].note
