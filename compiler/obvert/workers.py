@@ -15,6 +15,7 @@ import contextlib
 import multiprocessing
 import os
 import signal
+import threading
 from collections.abc import Callable, Iterator, Sequence
 from concurrent.futures import Executor, Future, ProcessPoolExecutor, as_completed
 from typing import Any, TypeVar
@@ -54,6 +55,11 @@ def single_threaded_children() -> Iterator[None]:
 
 def _stop_local_workers(pool: ProcessPoolExecutor) -> None:
     """Cancel what has not started and end the workers now (a build that stops, stops)."""
+    # The pool's management thread must be joined before the interpreter exits: its exit
+    # hook wakes the thread through a pipe the thread closes as it ends, and the race
+    # prints a traceback ("Bad file descriptor", CPython 3.11). The first shutdown drops
+    # the pool's reference to the thread, so keep one to join it below.
+    manager = getattr(pool, "_executor_manager_thread", None)
     pool.shutdown(wait=False, cancel_futures=True)
     for child in multiprocessing.active_children():
         child.terminate()
@@ -61,8 +67,8 @@ def _stop_local_workers(pool: ProcessPoolExecutor) -> None:
         child.join(timeout=5.0)
         if child.is_alive():
             child.kill()
-    # join the pool's management thread now, so that nothing of it is left for the
-    # interpreter's exit (which would otherwise print a traceback from a closed pipe)
+    if isinstance(manager, threading.Thread):
+        manager.join(timeout=10.0)
     with contextlib.suppress(Exception):
         pool.shutdown(wait=True, cancel_futures=True)
 
