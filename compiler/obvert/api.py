@@ -18,10 +18,9 @@ from obvert.emitter.catalogue import catalogue_budget, catalogue_files
 from obvert.firmware.bundle import (
     DIRECTORY_ENTRY_BYTES,
     HEADER_BYTES,
-    PRODUCT_HEAD_BYTES,
     TRAILER_BYTES,
     name_id,
-    node_bytes,
+    product_block_bytes,
 )
 from obvert.spec import Spec, SpecError, loads_spec, spec_from_dict
 from obvert.spec.errors import toml_text
@@ -310,8 +309,7 @@ def _bundle_bytes_bound(specs: Sequence[Spec], most: bool) -> int:
     for spec in specs:
         n_x, n_t = len(spec.grid.thickness_m), len(spec.grid.start_temp_c)
         width = _event_counts(spec)[1 if most else 0]
-        total += DIRECTORY_ENTRY_BYTES + PRODUCT_HEAD_BYTES + 4 * (n_x + n_t)
-        total += n_x * n_t * node_bytes(width)
+        total += DIRECTORY_ENTRY_BYTES + product_block_bytes(n_x, n_t, width)
     return total
 
 

@@ -302,16 +302,29 @@ def _binding_error(
 CONFIRM_TRIES = 8
 
 
-def _passing_curve(
-    case: Case, long: Schedule, end_at_pass_after_s: float | None = None
+def _passing_ticks(
+    cases: tuple[Case, ...],
+    schedule: Schedule,
+    tick_s: float,
+    first: int,
+    limit: int,
+    end_at_first_pass: bool = False,
 ) -> tuple[np.ndarray, np.ndarray]:
-    """Times and pass/fail of every row of one run of ``long`` (food left on the plate).
+    """Done ticks ``first .. limit`` and whether the history of every case passes at each.
 
-    With ``end_at_pass_after_s`` the run ends at its first passing row at or after that time
-    (:func:`obvert.certify.history.slack_rows`).
+    One run per case of ``schedule`` with the food left on the plate to ``limit``; a tick
+    takes the verdict of the first row at or after it. With ``end_at_first_pass`` each run
+    ends at its first passing row at or after ``first`` (later ticks read that row).
     """
-    t_s, slack = slack_rows(case, long, end_at_pass_after_s)
-    return t_s, slack >= 0.0
+    long = schedule.with_done(limit * tick_s)
+    ticks = np.arange(first, limit + 1)
+    ok = np.ones(ticks.size, dtype=bool)
+    after = first * tick_s - 1e-9 if end_at_first_pass else None
+    for c in cases:
+        t_rows, slack = slack_rows(c, long, after)
+        idx = np.clip(np.searchsorted(t_rows, ticks * tick_s - 1e-9), 0, t_rows.size - 1)
+        ok &= slack[idx] >= 0.0
+    return ticks, ok
 
 
 def _first_passing_tick(
@@ -322,13 +335,7 @@ def _first_passing_tick(
     Each case's run ends at its first passing row, so this costs about one run of the
     schedule per case, and one exact run per case to confirm (None: nothing confirmed here).
     """
-    long = schedule.with_done(limit * tick_s)
-    ticks = np.arange(first, limit + 1)
-    ok = np.ones(ticks.size, dtype=bool)
-    for c in cases:
-        t_rows, pass_rows = _passing_curve(c, long, first * tick_s - 1e-9)
-        idx = np.clip(np.searchsorted(t_rows, ticks * tick_s - 1e-9), 0, t_rows.size - 1)
-        ok &= pass_rows[idx]
+    ticks, ok = _passing_ticks(cases, schedule, tick_s, first, limit, end_at_first_pass=True)
     if not ok.any():
         return None
     trial = schedule.with_done(int(ticks[int(np.argmax(ok))]) * tick_s)
@@ -351,14 +358,7 @@ def _read_off_one_run(
     quick = _first_passing_tick(cases, schedule, tick_s, first, limit)
     if quick is not None:  # where the bisection below ends when passing is monotonic
         return quick
-    long = schedule.with_done(limit * tick_s)
-    ticks = np.arange(first, limit + 1)
-    ok = np.ones(ticks.size, dtype=bool)
-    for c in cases:
-        t_rows, pass_rows = _passing_curve(c, long)
-        # a tick takes the verdict of the first row at or after it
-        idx = np.clip(np.searchsorted(t_rows, ticks * tick_s - 1e-9), 0, t_rows.size - 1)
-        ok &= pass_rows[idx]
+    ticks, ok = _passing_ticks(cases, schedule, tick_s, first, limit)
     cands = ticks[ok]
     runs = np.split(cands, np.flatnonzero(np.diff(cands) > 1) + 1) if cands.size else []
     for run in runs[:CONFIRM_TRIES]:

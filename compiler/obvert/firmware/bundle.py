@@ -37,6 +37,7 @@ __all__ = [
     "name_id",
     "node_bytes",
     "parse_bundle",
+    "product_block_bytes",
     "verify_bundle",
 ]
 
@@ -203,6 +204,11 @@ def node_bytes(max_events: int) -> int:
     return 8 + EVENT_BYTES * max_events
 
 
+def product_block_bytes(n_x: int, n_t: int, max_events: int) -> int:
+    """Bytes of one product block: its head, both axes and ``n_x * n_t`` node records."""
+    return PRODUCT_HEAD_BYTES + 4 * (n_x + n_t) + n_x * n_t * node_bytes(max_events)
+
+
 def _u16(data: bytes, at: int) -> int:
     return int(struct.unpack_from("<H", data, at)[0])
 
@@ -330,7 +336,7 @@ def _product(data: bytes, at: int, size: int, product_id: int, field: str) -> Bu
         )
     if _u16(data, at + 6) != 0:
         raise _fail(BundleStatus.BAD_FIELD, f"{field}.reserved = {_u16(data, at + 6)}: must be 0")
-    want = PRODUCT_HEAD_BYTES + 4 * (n_x + n_t) + n_x * n_t * node_bytes(width)
+    want = product_block_bytes(n_x, n_t, width)
     if size != want:
         raise _fail(
             BundleStatus.OUT_OF_RANGE,
