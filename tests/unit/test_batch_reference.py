@@ -20,9 +20,9 @@ from obvert.food.choi_okos import Composition, composition_table
 from obvert.food.lethality import LethalityModel
 from obvert.food.table import constant_table
 from obvert.plan.ocp import Requirement
-from obvert.plan.schedule import Event, Schedule, Surroundings
+from obvert.plan.schedule import Event, Schedule, Surroundings, phases_for
 from obvert.problem import Case
-from obvert.thermal.batch import CookCase, ReferenceSummary, simulate_many
+from obvert.thermal.batch import CookCase, ReferenceSummary, simulate_many, simulate_one
 from obvert.thermal.boundary import FaceBC, Phase
 from obvert.thermal.kernel import PropertyLookup
 from obvert.thermal.reference import ReferenceSettings, simulate
@@ -189,3 +189,30 @@ def test_judge_many_rejects_mismatched_lengths_and_names_the_case() -> None:
     bad = _case(constant_table("x", 0.45, 1050.0, 3500.0), -0.01, 4.0, Requirement(5.0))
     with pytest.raises(ValueError, match=r"cases\[1\] \(with schedules\[1\]\)\.thickness_m"):
         judge_many([good, bad], [flip, flip])
+
+
+def test_one_summary_is_the_batch_s_and_names_the_field_plainly() -> None:
+    case = VARIED[2]
+    one = simulate_one(BEEF, case, KINETICS, COARSE)
+    many = simulate_many(BEEF, [case], KINETICS, COARSE)[0]
+    np.testing.assert_array_equal(one.final_temp_c, many.final_temp_c)
+    assert one.min_temp_at_removal_c == many.min_temp_at_removal_c
+    assert one.min_log_reduction == many.min_log_reduction
+    with pytest.raises(ValueError, match=r"^thickness_m = 0\.0 "):
+        simulate_one(BEEF, CookCase(0.0, 5.0, [Phase(3.0, PLATE, AIR)]), KINETICS, COARSE)
+
+
+def test_judge_without_a_hold_rule_reads_the_full_history_s_numbers() -> None:
+    # judge keeps no history when no time-at-temperature rule needs it: its numbers must be
+    # those of the full run, read at the last row and at removal (before a rest)
+    flip = Schedule((Event("flip", 40.0), Event("done", 85.0)))
+    for req in (Requirement(5.0, min_temp_c=71.0), Requirement(6.5, min_temp_c=71.0, rest_s=20.0)):
+        case = _case(BEEF, 0.006, 4.0, req)
+        phases = phases_for(flip, case.env, rest_s=req.rest_s)
+        full = simulate(BEEF, 0.006, 4.0, phases, KINETICS, COARSE)
+        removal = len(phases) - 2 if req.rest_s > 0.0 else len(phases) - 1
+        row = int(np.flatnonzero(full.phase_index <= removal)[-1])
+        got = judge(case, flip)
+        assert got.min_log_reduction == float(np.min(full.log_reduction[-1]))
+        assert got.min_temp_at_removal_c == float(np.min(full.temp_c[row]))
+        assert got.hold_margin_s is None

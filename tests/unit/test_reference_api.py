@@ -18,6 +18,7 @@ from obvert.thermal.reference import (
     face_flux,
     food_frame,
     simulate,
+    simulate_minima,
 )
 
 TABLE = constant_table("lean-meat-like solid", 0.45, 1050.0, 3500.0)
@@ -286,3 +287,36 @@ def test_a_cook_that_never_gets_done_runs_to_its_end() -> None:
     full = run(phases, lethality=KINETICS)
     never = simulate(TABLE, 0.01, 5.0, phases, KINETICS, COARSE, EarlyEnd(0.0, 1e9))
     np.testing.assert_array_equal(never.temp_c, full.temp_c)
+
+
+# ------------------------------------------------------------------------------ row minima
+
+
+def test_row_minima_are_the_full_record_s_row_minima_bit_for_bit() -> None:
+    # two flips (the record's frame changes) and a phase start at every flip
+    phases = [
+        Phase(25.0, PLATE, AIR),
+        Phase(30.0, PLATE, AIR, flip_before=True),
+        Phase(300.0, PLATE, AIR, flip_before=True),
+    ]
+    full = simulate(TABLE, 0.01, -5.0, phases, KINETICS, COARSE)
+    rows = simulate_minima(TABLE, 0.01, -5.0, phases, KINETICS, COARSE)
+    np.testing.assert_array_equal(rows.t_s, full.t_s)
+    np.testing.assert_array_equal(rows.min_temp_c, full.temp_c.min(axis=1))
+    np.testing.assert_array_equal(rows.min_log_reduction, full.log_reduction.min(axis=1))
+    assert rows.min_log_reduction[-1] > 1.0  # the lethality really accumulated
+    # and ended early, the same rows as the full record cut at its first done row
+    end = EarlyEnd(after_s=60.0, log_reduction=3.0, temp_c=60.0)
+    short = simulate_minima(TABLE, 0.01, -5.0, phases, KINETICS, COARSE, end)
+    done = np.flatnonzero(
+        (full.t_s >= 60.0) & (rows.min_log_reduction >= 3.0) & (rows.min_temp_c >= 60.0)
+    )
+    k = int(done[0])
+    assert k < full.t_s.size - 10
+    np.testing.assert_array_equal(short.t_s, full.t_s[: k + 1])
+    np.testing.assert_array_equal(short.min_temp_c, rows.min_temp_c[: k + 1])
+
+
+def test_row_minima_check_their_inputs_like_simulate() -> None:
+    with pytest.raises(ValueError, match=r"thickness_m = -0\.01"):
+        simulate_minima(TABLE, -0.01, 5.0, [Phase(10.0, PLATE, AIR)], None, COARSE)

@@ -10,6 +10,7 @@ import numpy as np
 import pytest
 
 from obvert.search import Searched, Sequence
+from obvert.table.model import Candidate
 from obvert.table.searched import _nominal_start, _predicted, _unpaid
 
 FLIPS = {n: ("flip",) * n for n in range(5)}
@@ -27,6 +28,10 @@ def test_a_further_flip_is_searched_while_the_last_one_paid() -> None:
     why = _unpaid(FLIPS[3], found, 3.0)
     assert why is not None and "flip 2 shortened the cook by 2.5 s" in why and "3 s" in why
     assert _unpaid(FLIPS[3], found, 2.0) is None  # at a 2 s flip cost it paid
+    # a sequence left out on purpose is no failed solve (the build's progress counts those)
+    assert not Candidate(3, None, why, FLIPS[3]).failed
+    assert Candidate(3, None, "search failed: no done time by 900 s", FLIPS[3]).failed
+    assert not Candidate(3, 197.5, "searched: converged", FLIPS[3]).failed
 
 
 def test_a_sequence_is_searched_when_its_predecessors_were_not_found() -> None:

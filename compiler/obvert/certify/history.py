@@ -16,7 +16,7 @@ import numpy as np
 from obvert.food.criteria import HoldRule, time_above_by_step
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
-from obvert.thermal.reference import EarlyEnd, food_frame, simulate
+from obvert.thermal.reference import EarlyEnd, food_frame, simulate, simulate_minima
 
 #: Slack of a row whose time-at-temperature rule is not yet met (a pass/fail rule, no degree).
 HOLD_UNMET_SLACK = -1.0
@@ -53,32 +53,29 @@ def slack_rows(
         slack >= 0.
     """
     req = case.requirement
-    end = None
-    if end_at_pass_after_s is not None and not req.holds:
-        floor = -math.inf if req.min_temp_c is None else req.min_temp_c
-        end = EarlyEnd(end_at_pass_after_s, req.log_reduction, floor)
-    res = simulate(
-        case.table,
-        case.thickness_m,
-        case.start_temp_c,
-        phases_for(long, case.env),
-        case.lethality,
-        case.settings,
-        end,
-    )
-    lr = res.log_reduction.min(axis=1)
+    run = (case.table, case.thickness_m, case.start_temp_c, phases_for(long, case.env))
+    if req.holds:  # the rule needs every cell's history
+        res = simulate(*run, case.lethality, case.settings)
+        t_s, lr, cold = res.t_s, res.log_reduction.min(axis=1), res.temp_c.min(axis=1)
+    else:  # the row minima are all the criteria read
+        end = None
+        if end_at_pass_after_s is not None:
+            floor = -math.inf if req.min_temp_c is None else req.min_temp_c
+            end = EarlyEnd(end_at_pass_after_s, req.log_reduction, floor)
+        rows = simulate_minima(*run, case.lethality, case.settings, end)
+        t_s, lr, cold = rows.t_s, rows.min_log_reduction, rows.min_temp_c
     target = req.log_reduction
     with np.errstate(divide="ignore"):
         ratio = np.log10(np.maximum(lr, 1e-300) / target)
     # the sign follows the comparison itself, never a rounded ratio of two close numbers
     slack = np.where(lr >= target, np.maximum(ratio, 0.0), np.minimum(ratio, -1e-12))
     if req.min_temp_c is not None:
-        slack = np.minimum(slack, (res.temp_c.min(axis=1) - req.min_temp_c) / TEMP_SLACK_SCALE_K)
+        slack = np.minimum(slack, (cold - req.min_temp_c) / TEMP_SLACK_SCALE_K)
     if req.holds:
         temps, _ = food_frame(res)
         met = hold_met_by_row(res.t_s, temps, req.holds)
         slack = np.where(met, slack, np.minimum(slack, HOLD_UNMET_SLACK))
-    return res.t_s, slack
+    return t_s, slack
 
 
 def hold_met_by_row(t_s: np.ndarray, temps: np.ndarray, holds: tuple[HoldRule, ...]) -> np.ndarray:

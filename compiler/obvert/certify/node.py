@@ -33,6 +33,7 @@ from obvert.certify.history import slack_rows
 from obvert.food.criteria import hold_margin_s
 from obvert.plan.schedule import Schedule, phases_for
 from obvert.problem.model import Case
+from obvert.thermal.batch import CookCase, simulate_one
 from obvert.thermal.reference import food_frame, simulate
 
 
@@ -180,21 +181,27 @@ def judge(case: Case, schedule: Schedule) -> Verdict:
     The log reduction is the smallest over the cells at the end (after the credited rest);
     the removal temperature is the coldest cell when the food leaves the plate; the
     time-at-temperature rule is checked exactly on each cell's own history (every cell of
-    the food, flips followed, the rest included), taken linear between time steps.
+    the food, flips followed, the rest included), taken linear between time steps. Without
+    that rule no history is kept (:func:`obvert.thermal.batch.simulate_one`: the same
+    numbers, bit for bit).
     """
     req = case.requirement
     phases = phases_for(schedule, case.env, rest_s=req.rest_s)
-    res = simulate(
-        case.table, case.thickness_m, case.start_temp_c, phases, case.lethality, case.settings
-    )
-    lr = float(np.min(res.log_reduction[-1]))
-    if req.rest_s > 0.0:
-        removal_row = int(np.nonzero(res.phase_index == len(phases) - 2)[0][-1])
-    else:
-        removal_row = len(res.t_s) - 1
-    t_min = float(np.min(res.temp_c[removal_row]))
-    hold: float | None = None
-    if req.holds:
+    if not req.holds:  # the last row and the removal row are all it reads: no history kept
+        removal = len(phases) - 2 if req.rest_s > 0.0 else None
+        cook = CookCase(case.thickness_m, case.start_temp_c, phases, removal)
+        s = simulate_one(case.table, cook, case.lethality, case.settings)
+        lr, t_min, hold = s.min_log_reduction, s.min_temp_at_removal_c, None
+    else:  # the time-at-temperature rule reads every cell's history
+        res = simulate(
+            case.table, case.thickness_m, case.start_temp_c, phases, case.lethality, case.settings
+        )
+        lr = float(np.min(res.log_reduction[-1]))
+        if req.rest_s > 0.0:
+            removal_row = int(np.nonzero(res.phase_index == len(phases) - 2)[0][-1])
+        else:
+            removal_row = len(res.t_s) - 1
+        t_min = float(np.min(res.temp_c[removal_row]))
         temps, _ = food_frame(res)
         hold = hold_margin_s(res.t_s, temps, req.holds)[0]
     ok = (

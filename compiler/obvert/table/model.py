@@ -8,6 +8,9 @@ from obvert.certify.cells import CellResult
 from obvert.plan.schedule import Schedule
 from obvert.spec.model import Spec
 
+#: How a candidate's note starts when the sequence was left out on purpose, not tried.
+NOT_SEARCHED = "not searched: "
+
 
 @dataclass(frozen=True)
 class Candidate:
@@ -18,9 +21,11 @@ class Candidate:
     flips : int
         Number of flips.
     planned_cook_time_s : float | None
-        Minimum cook time on the reduced model, s (None: the solve failed).
+        Minimum cook time on the planner's model, s (None: the solve failed, or the
+        sequence was not searched).
     note : str
-        Solver status, or why it failed.
+        Solver status, or why it failed; starts with :data:`NOT_SEARCHED` when the
+        sequence was left out on purpose.
     sequence : tuple of str
         The events before done that were planned.
     calibrated_cook_time_s : float | None
@@ -33,6 +38,11 @@ class Candidate:
     note: str
     sequence: tuple[str, ...] = ()
     calibrated_cook_time_s: float | None = None
+
+    @property
+    def failed(self) -> bool:
+        """The sequence was tried and gave no plan (one left out on purpose did not fail)."""
+        return self.planned_cook_time_s is None and not self.note.startswith(NOT_SEARCHED)
 
 
 @dataclass(frozen=True)

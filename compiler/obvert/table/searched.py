@@ -44,7 +44,7 @@ from obvert.search.events import (
     predict,
 )
 from obvert.table.entry import BuildError, certified_node, node_name
-from obvert.table.model import Candidate, Node
+from obvert.table.model import NOT_SEARCHED, Candidate, Node
 
 #: Trust region of a screening search from a predicted start: first and last radius, s.
 SCREEN = (NEAR_RADIUS_S, SCREEN_TOLERANCE_S)
@@ -297,7 +297,7 @@ def _unpaid(
     if gain > flip_cost_s:
         return None
     return (
-        f"not searched: flip {n - 1} shortened the cook by {gain:.1f} s, no more than the "
+        f"{NOT_SEARCHED}flip {n - 1} shortened the cook by {gain:.1f} s, no more than the "
         f"flip cost ({flip_cost_s:g} s)"
     )
 

@@ -37,7 +37,8 @@ class ProgressEvent:
     total : int
         Units of the stage in all.
     failures : int
-        Candidate solves (flip counts) that failed so far; such a candidate is never used.
+        Candidate solves (flip counts) that failed so far; such a candidate is never used (a
+        sequence left out on purpose, :attr:`Candidate.failed` false, is no failure).
     message : str
         One line on what just finished, units included.
     """
@@ -95,7 +96,7 @@ def build(
     for k, row in run_tasks(_row, tasks, jobs, executor, isolate):
         i = order[k]
         rows[i] = row
-        failures += sum(c.planned_cook_time_s is None for n in row for c in n.candidates)
+        failures += sum(c.failed for n in row for c in n.candidates)
         if progress is not None:
             longest = max(n.schedule.done_s for n in row)
             progress(

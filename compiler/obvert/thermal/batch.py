@@ -158,32 +158,68 @@ def simulate_many(
     cases = list(cases)
     for i, case in enumerate(cases):
         _check_case(table, case, settings.n_cells, i)
-    lookup = kernel.lookup_for(table)
+    return [_summary(table, case, lethality, settings) for case in cases]
+
+
+def simulate_one(
+    table: PropertyTable,
+    case: CookCase,
+    lethality: LethalityModel | None = None,
+    settings: ReferenceSettings = ReferenceSettings(),  # noqa: B008 (frozen, immutable)
+) -> ReferenceSummary:
+    """The summary of one cook: :func:`simulate_many` of ``[case]``, errors naming the field.
+
+    Parameters
+    ----------
+    table, lethality, settings
+        As for :func:`simulate_many`.
+    case : CookCase
+        Thickness (m), start temperature (degC), phases (s) and removal phase of the cook.
+
+    Returns
+    -------
+    ReferenceSummary
+        The same numbers as the summary of a full :func:`obvert.thermal.reference.simulate`
+        run (:func:`summarize`), with no time history kept.
+
+    Raises
+    ------
+    ValueError
+        On invalid input, naming the field and its value (as
+        :func:`obvert.thermal.reference.simulate`).
+    """
+    start = np.asarray(case.start_temp_c, dtype=float)
+    check_inputs(table, float(case.thickness_m), start, list(case.phases), settings.n_cells)
+    return _summary(table, case, lethality, settings)
+
+
+def _summary(
+    table: PropertyTable,
+    case: CookCase,
+    lethality: LethalityModel | None,
+    settings: ReferenceSettings,
+) -> ReferenceSummary:
+    """Run one checked cook through the kernel, keeping its last and removal rows."""
     n = settings.n_cells
-    out: list[ReferenceSummary] = []
-    for case in cases:
-        start = np.asarray(case.start_temp_c, dtype=float)
-        last = len(case.phases) - 1
-        run = kernel.run_case(
-            lookup,
-            float(case.thickness_m),
-            np.broadcast_to(start, (n,)).astype(float),
-            list(case.phases),
-            lethality,
-            settings.dt_max_s,
-            settings.newton_tol_k,
-            settings.max_newton,
-            record=False,
-            removal_phase=last if case.removal_phase is None else int(case.removal_phase),
-        )
-        lr = run.final_acc[kernel.ACC_LOG_REDUCTION].copy()
-        out.append(
-            ReferenceSummary(
-                float(np.min(lr)),
-                float(np.min(run.removal_temp_c)),
-                run.final_temp_c,
-                lr,
-                run.final_mirrored,
-            )
-        )
-    return out
+    start = np.asarray(case.start_temp_c, dtype=float)
+    last = len(case.phases) - 1
+    run = kernel.run_case(
+        kernel.lookup_for(table),
+        float(case.thickness_m),
+        np.broadcast_to(start, (n,)).astype(float),
+        list(case.phases),
+        lethality,
+        settings.dt_max_s,
+        settings.newton_tol_k,
+        settings.max_newton,
+        record=False,
+        removal_phase=last if case.removal_phase is None else int(case.removal_phase),
+    )
+    lr = run.final_acc[kernel.ACC_LOG_REDUCTION].copy()
+    return ReferenceSummary(
+        float(np.min(lr)),
+        float(np.min(run.removal_temp_c)),
+        run.final_temp_c,
+        lr,
+        run.final_mirrored,
+    )

@@ -586,16 +586,19 @@ def _march(
     last_temp: Array,
     removal_temp: Array,
     stop: Array,
+    minima: bool,
 ) -> tuple[int, float, float, float, bool, int]:
     """March the unknowns ``y`` = [T_s0, E_cells.., T_s1] through all phases of one cook.
 
-    Records every step end into the ``hist_*`` arrays when they have rows; always keeps the
-    state of the last recorded row (``last_temp`` with surfaces at both ends, the per-cell
-    accumulators ``last_acc`` and the returned mirrored flag) and the cell temperatures at the
-    end of the removal phase. ``stop`` = [time s, log reduction, temperature degC]: the march
-    ends after the first step that ends at or after that time with every cell at or above
-    both (an infinite time: never). Returns (outcome code, time and step of a failure, its
-    last Newton error estimate, mirrored, index of the last row marched).
+    Records every step end into the ``hist_*`` arrays when they have rows (with ``minima``,
+    ``hist_temp`` and ``hist_acc`` have one column: the smallest value over the cells); always
+    keeps the state of the last recorded row (``last_temp`` with surfaces at both ends, the
+    per-cell accumulators ``last_acc`` and the returned mirrored flag) and the cell
+    temperatures at the end of the removal phase. ``stop`` = [time s, log reduction,
+    temperature degC]: the march ends after the first step that ends at or after that time
+    with every cell at or above both (an infinite time: never). Returns (outcome code, time
+    and step of a failure, its last Newton error estimate, mirrored, index of the last row
+    marched).
     """
     n = y.size - 2
     record = hist_t.size > 0
@@ -631,9 +634,8 @@ def _march(
             last_mirrored = mirrored
             if record:
                 hist_t[0], hist_phase[0], hist_mirr[0] = 0.0, 0, mirrored
-                hist_temp[0, :] = temp[1 : n + 1]
+                _record(hist_temp, hist_acc, 0, temp, acc, n, minima)
                 hist_surf[0, 0], hist_surf[0, 1] = y[0], y[n + 1]
-                hist_acc[0, :] = acc[ACC_LOG_REDUCTION]
         m = steps[p]
         if m > 0:
             duration = durations[p]
@@ -662,9 +664,8 @@ def _march(
                 if record:
                     hist_t[row] = t_row
                     hist_phase[row], hist_mirr[row] = p, mirrored
-                    hist_temp[row, :] = temp[1 : n + 1]
+                    _record(hist_temp, hist_acc, row, temp, acc, n, minima)
                     hist_surf[row, 0], hist_surf[row, 1] = temp[0], temp[n + 1]
-                    hist_acc[row, :] = acc[ACC_LOG_REDUCTION]
                 if t_row >= stop[0] and _all_at_least(acc[ACC_LOG_REDUCTION], temp, n, stop):
                     if p == removal_phase:
                         removal_temp[:] = last_temp[1 : n + 1]
@@ -672,6 +673,23 @@ def _march(
         if p == removal_phase:
             removal_temp[:] = last_temp[1 : n + 1]
     return _OK, 0.0, 0.0, 0.0, last_mirrored, row
+
+
+@numba.njit(cache=True)
+def _record(
+    hist_temp: Array, hist_acc: Array, row: int, temp: Array, acc: Array, n: int, minima: bool
+) -> None:
+    """Cell temperatures and log reductions of one row: all cells, or their minima."""
+    lr = acc[ACC_LOG_REDUCTION]
+    if minima:
+        t_min, lr_min = temp[1], lr[0]
+        for c in range(1, n):
+            t_min = min(t_min, temp[c + 1])
+            lr_min = min(lr_min, lr[c])
+        hist_temp[row, 0], hist_acc[row, 0] = t_min, lr_min
+    else:
+        hist_temp[row, :] = temp[1 : n + 1]
+        hist_acc[row, :] = lr
 
 
 @numba.njit(cache=True)
@@ -784,10 +802,10 @@ class CaseOutput:
     ----------
     t_s : ndarray, shape (rows,)
         Time of each recorded row, s (empty unless recorded).
-    temp_c : ndarray, shape (rows, n_cells)
-        Cell temperatures of each row, degC, lab frame of the row's phase.
-    log_reduction : ndarray, shape (rows, n_cells)
-        Accumulated log reduction per cell of each row, log10.
+    temp_c : ndarray, shape (rows, n_cells), or (rows, 1) when minima were recorded
+        Cell temperatures of each row, degC, lab frame of the row's phase (or their minimum).
+    log_reduction : ndarray, shape (rows, n_cells), or (rows, 1) when minima were recorded
+        Accumulated log reduction per cell of each row, log10 (or its minimum).
     surface_c : ndarray, shape (rows, 2)
         Surface temperatures of faces 0 and 1, degC.
     phase_index : ndarray of int, shape (rows,)
@@ -867,6 +885,7 @@ def run_case(
     removal_phase: int,
     forcing: Forcing | None = None,
     stop: tuple[float, float, float] | None = None,
+    minima: bool = False,
 ) -> CaseOutput:
     """March one cook through the compiled kernel (inputs already checked by the caller).
 
@@ -898,6 +917,11 @@ def run_case(
         End the cook early, after the first step that ends at or after ``stop[0]`` s with
         every cell's log reduction at least ``stop[1]`` (log10) and temperature at least
         ``stop[2]`` (degC); the history then ends at that row (None: run every phase).
+    minima : bool
+        Record, per row, only the smallest cell temperature and log reduction
+        (:attr:`CaseOutput.temp_c` and :attr:`CaseOutput.log_reduction` then have one
+        column): the same numbers as the full record's row minima, with a row's memory
+        traffic cut from ``2 n_cells`` values to 2.
 
     Returns
     -------
@@ -930,10 +954,11 @@ def run_case(
     x = (np.arange(n) + 0.5) * dx
     src0, qx0, src, qx = _tabulate(forcing, x, phases, counts, t_starts)
     rows = sum(counts) + 1 if record else 0
+    cols = 1 if minima else n
     hist = (
         np.zeros(rows),
-        np.zeros((rows, n)),
-        np.zeros((rows, n)),
+        np.zeros((rows, cols)),
+        np.zeros((rows, cols)),
         np.zeros((rows, 2)),
         np.zeros(rows, dtype=np.int64),
         np.zeros(rows, dtype=np.bool_),
@@ -945,7 +970,7 @@ def run_case(
         lookup.arrays(), dx, y, np.array(counts, dtype=np.int64), durations, t_starts,
         np.array([p.flip_before for p in phases], dtype=np.bool_), faces, float(newton_tol_k),
         int(max_newton), _kinetics(lethality), int(removal_phase), src0, qx0, src, qx,
-        forcing is not None, *hist, last_acc, last_temp, removal_temp, stop_at,
+        forcing is not None, *hist, last_acc, last_temp, removal_temp, stop_at, bool(minima),
     )  # fmt: skip
     if code == _SURFACE_FAILED:
         raise SolverDivergedError(f"at t = {t_fail:.6g} s: surface balance did not converge")

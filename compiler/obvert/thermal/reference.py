@@ -118,6 +118,29 @@ class ReferenceResult:
     mirrored: NDArray[np.bool_]
 
 
+@dataclass(frozen=True, eq=False)
+class RowMinima:
+    """Per time step of a simulated cook, the coldest and the least reduced point of the food.
+
+    What a read-off of "would the cook pass if it ended here" needs when no
+    time-at-temperature rule applies: the same numbers as the row minima of the full
+    :class:`ReferenceResult`, bit for bit, for a fraction of its memory.
+
+    Attributes
+    ----------
+    t_s : ndarray, shape (rows,)
+        Time of each step end, s, starting at 0.
+    min_temp_c : ndarray, shape (rows,)
+        Coldest cell temperature of each row, degC.
+    min_log_reduction : ndarray, shape (rows,)
+        Smallest log reduction over the cells of each row, log10.
+    """
+
+    t_s: Array
+    min_temp_c: Array
+    min_log_reduction: Array
+
+
 @dataclass(frozen=True)
 class EarlyEnd:
     """End a simulated cook at the first step where the whole food is done.
@@ -279,6 +302,32 @@ def simulate(
     return _run(table, thickness_m, start_temp_c, phases, lethality, settings, None, end_early)
 
 
+def simulate_minima(
+    table: PropertyTable,
+    thickness_m: float,
+    start_temp_c: float | ArrayLike,
+    phases: Sequence[Phase],
+    lethality: LethalityModel | None = None,
+    settings: ReferenceSettings = ReferenceSettings(),  # noqa: B008 (frozen, immutable)
+    end_early: EarlyEnd | None = None,
+) -> RowMinima:
+    """Run :func:`simulate` keeping, per row, only the coldest cell and the least log reduction.
+
+    Parameters and errors are those of :func:`simulate`; the rows are the same (an early end
+    included), and each value is the minimum over the cells of that row of :func:`simulate`'s
+    result, bit for bit.
+
+    Returns
+    -------
+    RowMinima
+        Times (s), coldest temperatures (degC) and smallest log reductions (log10) per row.
+    """
+    out = _march(
+        table, thickness_m, start_temp_c, phases, lethality, settings, None, end_early, minima=True
+    )
+    return RowMinima(out.t_s, out.temp_c[:, 0].copy(), out.log_reduction[:, 0].copy())
+
+
 def simulate_forced(
     table: PropertyTable,
     thickness_m: float,
@@ -325,10 +374,35 @@ def _run(
     end_early: EarlyEnd | None = None,
 ) -> ReferenceResult:
     """Check the inputs and march the cook, recording every step end."""
+    out = _march(table, thickness_m, start_temp_c, phases, lethality, settings, forcing, end_early)
+    n = settings.n_cells
+    return ReferenceResult(
+        t_s=out.t_s,
+        temp_c=out.temp_c,
+        log_reduction=out.log_reduction,
+        phase_index=out.phase_index,
+        x_m=(np.arange(n) + 0.5) * (float(thickness_m) / n),
+        surface_c=out.surface_c,
+        mirrored=out.mirrored,
+    )
+
+
+def _march(
+    table: PropertyTable,
+    thickness_m: float,
+    start_temp_c: float | ArrayLike,
+    phases: Sequence[Phase],
+    lethality: LethalityModel | None,
+    settings: ReferenceSettings,
+    forcing: kernel.Forcing | None,
+    end_early: EarlyEnd | None,
+    minima: bool = False,
+) -> kernel.CaseOutput:
+    """Check the inputs and run the kernel, recording every step end (or its minima)."""
     n = settings.n_cells
     start = np.asarray(start_temp_c, dtype=float)
     check_inputs(table, float(thickness_m), start, phases, n)
-    out = kernel.run_case(
+    return kernel.run_case(
         kernel.lookup_for(table),
         float(thickness_m),
         np.broadcast_to(start, (n,)).astype(float),
@@ -343,13 +417,5 @@ def _run(
         stop=None
         if end_early is None
         else (end_early.after_s, end_early.log_reduction, end_early.temp_c),
-    )
-    return ReferenceResult(
-        t_s=out.t_s,
-        temp_c=out.temp_c,
-        log_reduction=out.log_reduction,
-        phase_index=out.phase_index,
-        x_m=(np.arange(n) + 0.5) * (float(thickness_m) / n),
-        surface_c=out.surface_c,
-        mirrored=out.mirrored,
+        minima=minima,
     )
