@@ -1,13 +1,15 @@
 """Certification allows for the reference model's own discretisation error.
 
 The reference is second order in space and time (tests/physics/test_reference_convergence.py),
-so halving the cell size and the step cuts its error about four times, and the coarse
-result's error is about 4/3 of the difference between the coarse and the fine run
-(Richardson extrapolation: L. F. Richardson, "The deferred approach to the limit", Phil.
-Trans. R. Soc. A 226, 1927, 299-361). The certifier's estimate (Richardson's times a safety
-factor, because the cold spot is a minimum over cell centres and converges irregularly) is
-checked here against a run eight times finer, and certification is shown to refuse a
-schedule whose margin is smaller than the estimated error plus the stated minimum.
+so halving the cell size cuts its space error about four times, and doubling the step
+multiplies its time error about four times: the certified result's error is about 4/3 of its
+difference from the run on twice the cells plus 1/3 of its difference from the run at twice
+the step (Richardson extrapolation, once per direction: L. F. Richardson, "The deferred
+approach to the limit", Phil. Trans. R. Soc. A 226, 1927, 299-361). The certifier's estimate
+(Richardson's times a safety factor, because the cold spot is a minimum over cell centres and
+converges irregularly) is checked here against a run eight times finer in space and time,
+and certification is shown to refuse a schedule whose margin is smaller than the estimated
+error plus the stated minimum.
 """
 
 from __future__ import annotations
@@ -26,13 +28,13 @@ SPEC = Path(__file__).resolve().parents[1] / "cli" / "small_spec.toml"
 TICK = 0.001  # a fine tick, so that the shortest passing done has a margin of a few 0.001 log
 
 
-def _case():
-    """The small test patty, 8 mm from chilled, on the default reference (200 cells, 50 ms)."""
+def _case(start_c: float = 4.0, step_s: float = 0.05):
+    """The small test patty, 8 mm, on the reference's 200 cells (default step 50 ms)."""
     problem = problem_of(load_spec(SPEC))
-    case = problem.cases_at(0.008, 4.0)[0]
+    case = problem.cases_at(0.008, start_c)[0]
     # the log reduction alone binds (no removal-temperature rule)
     req = replace(case.requirement, min_temp_c=None)
-    return replace(case, requirement=req)
+    return replace(case, requirement=req, settings=replace(case.settings, dt_max_s=step_s))
 
 
 def _shortest(case) -> Schedule:
@@ -41,15 +43,35 @@ def _shortest(case) -> Schedule:
     return certify([case], flip, TICK, max_extension=4.0).schedule
 
 
-def test_richardson_estimate_brackets_a_much_finer_reference() -> None:
-    case = _case()
+@pytest.mark.parametrize(
+    ("start_c", "step_s"),
+    [(4.0, 0.05), (-10.0, 0.05), (4.0, 0.5)],
+    ids=["chilled", "frozen (thawing front)", "chilled, a coarse step"],
+)
+def test_richardson_estimate_brackets_a_much_finer_reference(start_c, step_s) -> None:
+    case = _case(start_c, step_s)
     sched = _shortest(case)
     est = reference_error(case, sched, 2)
-    finest = replace(case, settings=replace(case.settings, n_cells=1600, dt_max_s=0.00625))
-    true_err = abs(judge(case, sched).min_log_reduction - judge(finest, sched).min_log_reduction)
+    finest = replace(case, settings=replace(case.settings, n_cells=1600, dt_max_s=step_s / 8))
+    coarse, fine = judge(case, sched), judge(finest, sched)
+    true_err = abs(coarse.min_log_reduction - fine.min_log_reduction)
     assert true_err > 0.0
     # conservative, and not by more than a factor of three
     assert true_err <= est.log <= 3.0 * true_err, (est.log, true_err)
+
+
+def test_the_time_error_is_estimated_where_the_step_makes_it_count() -> None:
+    # at a step ten times the default the time error is most of the error: the estimate of
+    # the space error alone (Richardson on twice the cells, same step) falls short of it
+    case = _case(4.0, 0.5)
+    sched = _shortest(case)
+    est = reference_error(case, sched, 2)
+    twice = replace(case, settings=replace(case.settings, n_cells=400))
+    gap = abs(judge(case, sched).min_log_reduction - judge(twice, sched).min_log_reduction)
+    space_only = 1.5 * 4.0 / 3.0 * gap
+    finest = replace(case, settings=replace(case.settings, n_cells=1600, dt_max_s=0.0625))
+    true_err = abs(judge(case, sched).min_log_reduction - judge(finest, sched).min_log_reduction)
+    assert space_only < true_err <= est.log, (space_only, true_err, est.log)
 
 
 def test_margin_below_the_reference_error_is_refused_and_extended() -> None:

@@ -89,9 +89,11 @@ def summary(m: dict[str, Any]) -> str:
     )
     lines.append(
         plan_note + "fix s: extension needed on the reference "
-        "model; need log: margin required (the reference's estimated error, measured on a finer "
-        "reference, plus [planning] min_margin); ff lim s / 2side s: fast-flip and "
-        "two-sided-contact limits (" + ("search mesh" if searched else "reduced model") + ")"
+        "model; need log: margin required (the reference's estimated error, measured with finer "
+        "cells and with a longer step, plus [planning] min_margin); ff lim s / 2side s: "
+        "fast-flip and two-sided-contact limits ("
+        + ("search mesh" if searched else "reduced model")
+        + ")"
     )
     lines.append(
         f"smallest margin {s['smallest_margin_log']:.3f} log; "

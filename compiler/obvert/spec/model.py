@@ -194,8 +194,8 @@ class PlanningSpec:
         Margin every certified schedule must keep above the reference model's estimated
         discretisation error, log10 reductions.
     reference_refinement : int
-        The error check runs the binding scenario on this many times the cells and this
-        fraction of the time step, -.
+        The error check runs the binding scenario on this many times the cells (same step)
+        and on this many times the time step (same cells), -.
     method : str
         ``search`` (event times searched on a coarse finite-volume model) or
         ``collocation`` (optimal control on the reduced model).

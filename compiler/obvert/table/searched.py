@@ -7,12 +7,13 @@ rescaled by how far the sequence with one event fewer moved, which follows the j
 freezing point), or else from the optimum with one event fewer. A further flip is not
 searched once the flip before it saved no more than the flip cost (each flip saves less than
 the one before). The screened sequences within :data:`POLISH_BAND_S` of the least cost (cook
-time plus ``flip_cost`` per flip, on the search mesh) are searched on to the full tolerance,
-and the least cost wins. Its event times are put on whole ticks, and its done time is read
-off one reference run per scenario, against the target raised by the margin certification
-will ask for (the spec's minimum plus the reference error measured at the previous node of
-the row), so that certification usually passes at its first run. Certification then
-decides, as for any plan (:func:`obvert.table.entry.certified_node`).
+time plus ``flip_cost`` per flip, on the search mesh) are searched on to
+:data:`~obvert.search.events.POLISH_TOLERANCE_S`, and the least cost wins. Its event times
+are put on whole ticks, and its done time is read off one reference run per scenario,
+against the target raised by the margin certification will ask for (the spec's minimum plus
+the reference error measured at the previous node of the row), so that certification usually
+passes at its first run. Certification then decides, as for any plan
+(:func:`obvert.table.entry.certified_node`).
 
 The nodes of a row are solved in order of start temperature, each from the ones before it,
 whichever worker runs the row: the result does not depend on how the rows are shared out.
@@ -38,8 +39,8 @@ from obvert.search import (
     seed_from,
 )
 from obvert.search.events import (
-    DWELL_TOLERANCE_S,
     NEAR_RADIUS_S,
+    POLISH_TOLERANCE_S,
     SCREEN_TOLERANCE_S,
     predict,
 )
@@ -152,7 +153,7 @@ def _node(
     def cost(r: Searched) -> float:
         return r.done_s + r.seq.kinds.count("flip") * p.flip_cost_s
 
-    # the screened sequences within reach of the fastest are searched on to full tolerance
+    # the screened sequences within reach of the fastest are searched on (polished)
     best_cost = min(cost(r) for r in found.values())
     for kinds, res in found.items():
         if res.status.startswith("screened") and cost(res) <= best_cost + POLISH_BAND_S:
@@ -216,7 +217,7 @@ def _node(
 
 
 def _polish(cases: tuple[Case, ...], screened: Searched) -> Searched:
-    """``screened`` searched on from its dwells to :data:`DWELL_TOLERANCE_S` (itself on failure)."""
+    """``screened`` searched on to :data:`POLISH_TOLERANCE_S` (itself if that fails)."""
     try:
         res = search_events(
             cases,
@@ -224,7 +225,7 @@ def _polish(cases: tuple[Case, ...], screened: Searched) -> Searched:
             screened.dwell_s,
             screened.done_s,
             near=True,
-            radius_s=(SCREEN_TOLERANCE_S, DWELL_TOLERANCE_S),
+            radius_s=(SCREEN_TOLERANCE_S, POLISH_TOLERANCE_S),
         )
     except SearchError:
         return screened
