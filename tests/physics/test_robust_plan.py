@@ -51,3 +51,33 @@ def test_robust_plan_covers_both_and_is_no_shorter_than_either() -> None:
     )
     cert = certify(cases, ticked, 0.1)
     assert cert.extension_s <= 0.01 * robust.cook_time_s, cert.extension_s
+
+
+def test_the_nominal_done_time_is_the_reference_s_within_a_tick() -> None:
+    # The search planner's nominal plan (price of robustness) is searched on the search
+    # mesh and carried to the reference by the robust plan's own reference/search ratio,
+    # without a reference run of its own. Checked against the reference read-off of the
+    # nominal event times themselves, at a frozen and a chilled 12 mm node.
+    from pathlib import Path
+
+    from obvert.problem import problem_of
+    from obvert.search import Sequence, read_done, search_events
+    from obvert.spec import load_spec
+    from obvert.table.searched import _nominal
+
+    spec = load_spec(Path(__file__).resolve().parents[1] / "cli" / "tolerance_spec.toml")
+    problem = problem_of(spec)
+    a = spec.appliance
+    seq = Sequence(("flip", "flip"), a.min_event_gap_s, a.flip_air_s)
+    for t0 in (-18.0, 4.0):
+        at = (0.012, t0)
+        robust = search_events(problem.search_cases_at(*at), seq, (60.0, 80.0), 250.0)
+        reference_s = read_done(problem.cases_at(*at), seq, robust.dwell_s, 400.0)
+        histories: tuple[dict, dict] = ({}, {})
+        estimate = _nominal(problem, at, robust, reference_s, histories)
+        assert estimate is not None
+        dwell = histories[1][seq.kinds][-1][1]  # the nominal event times found
+        nominal_case = problem.case(problem.nominal, *at)
+        exact = read_done([nominal_case], seq, dwell, 400.0)
+        assert estimate < reference_s - 5.0  # a real price of robustness
+        assert abs(estimate - exact) < 0.1, (estimate, exact)  # within one 0.1 s tick

@@ -85,7 +85,9 @@ class Node:
         Physical limits of the cook time on the reduced model (see obvert.plan.bounds), s.
     nominal_planned_s : float or None
         Cook time the same event sequence would need at nominal conditions (no
-        tolerances), s; None when no tolerances are declared (the plan is nominal).
+        tolerances), s; None when no tolerances are declared (the plan is nominal). The
+        search planner estimates it on its search mesh, carried to the reference by the
+        robust plan's ratio of reference to search-mesh done time.
     model_planned_s : float or None
         Cook time of the chosen sequence on the reduced model before the
         reference-calibrated correction, s (None: no correction asked).
