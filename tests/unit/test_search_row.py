@@ -10,8 +10,8 @@ import numpy as np
 import pytest
 
 from obvert.search import Searched, Sequence
-from obvert.table.model import Candidate
-from obvert.table.searched import _nominal_start, _predicted, _unpaid
+from obvert.table.model import NOT_SEARCHED, Candidate
+from obvert.table.searched import _far_behind, _nominal_start, _predicted, _unpaid
 
 FLIPS = {n: ("flip",) * n for n in range(5)}
 
@@ -66,6 +66,32 @@ def test_prediction_follows_the_jump_of_the_sequence_with_one_event_fewer() -> N
     # past the freezing point the no-flip cook is 30 % shorter than the line says (360 s)
     found = {FLIPS[0]: _res(FLIPS[0], 252.0)}
     np.testing.assert_allclose(_predicted(history, kinds, found, 0.0), [90.0 * 0.7])
+
+
+def test_prediction_falls_back_to_the_nearest_shorter_sequence_searched_here() -> None:
+    # the 1-flip sequence was left out at this node (far behind): the jump is read off the
+    # no-flip sequence instead
+    kinds = FLIPS[2]
+    history = {
+        FLIPS[0]: [(-6.0, (), 380.0), (-3.0, (), 370.0)],
+        FLIPS[1]: [(-6.0, (96.0,), 190.0), (-3.0, (93.0,), 185.0)],
+        kinds: [(-6.0, (60.0, 50.0), 170.0), (-3.0, (58.0, 49.0), 166.0)],
+    }
+    found = {FLIPS[0]: _res(FLIPS[0], 252.0)}  # 30 % below the line (360 s)
+    np.testing.assert_allclose(_predicted(history, kinds, found, 0.0), [56.0 * 0.7, 48.0 * 0.7])
+
+
+def test_a_sequence_far_behind_at_the_previous_node_is_left_out_once() -> None:
+    history = {FLIPS[1]: [(-6.0, (96.0,), 190.0)], FLIPS[2]: [(-6.0, (60.0, 50.0), 170.0)]}
+    behind = {FLIPS[0]: 1.2, FLIPS[1]: 0.0501, FLIPS[2]: 0.0}
+    why = _far_behind(FLIPS[1], behind, history)
+    assert why is not None and why.startswith(NOT_SEARCHED)
+    assert "5.0 % slower than the fastest sequence at the previous node (-6 degC)" in why
+    assert not Candidate(1, None, why, FLIPS[1]).failed  # no failed solve
+    assert _far_behind(FLIPS[0], behind, history) is None  # no events: one run, always run
+    assert _far_behind(FLIPS[2], behind, history) is None  # the fastest
+    assert _far_behind(FLIPS[1], {FLIPS[1]: 0.05}, history) is None  # not more than 5 %
+    assert _far_behind(FLIPS[3], behind, history) is None  # not searched there: search it
 
 
 def test_nominal_start_keeps_the_last_ratio_of_nominal_to_robust_dwells() -> None:

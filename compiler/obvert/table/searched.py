@@ -53,8 +53,19 @@ SCREEN = (NEAR_RADIUS_S, SCREEN_TOLERANCE_S)
 #: Screened sequences whose cost is within this of the least cost are searched on, s.
 POLISH_BAND_S = 0.3
 
+#: A sequence whose cost at the previous node of the row was more than this fraction above
+#: that node's least cost is not searched (sequences with no events cost one run and always
+#: are). On the production-size demo, of the sequences more than 5 % behind at a node, none
+#: came within 2.5 s (3.5 %) of the fastest at the next one, the freezing point included
+#: (docs/speed.md), where the polish band is 0.3 s.
+FAR_BEHIND = 0.05
+
 #: Per event sequence, (start temperature degC, dwells s, done s) of the row's nodes so far.
 History = dict[tuple[str, ...], list[tuple[float, tuple[float, ...], float]]]
+
+#: Per event sequence searched at the previous node of the row, its cost's relative excess
+#: over that node's least cost (0 for the sequence chosen there).
+Behind = dict[tuple[str, ...], float]
 
 
 def search_row(problem: Problem, i: int) -> list[Node]:
@@ -64,9 +75,10 @@ def search_row(problem: Problem, i: int) -> list[Node]:
     history: History = {}
     nominal: History = {}  # the same for the nominal plans (price of robustness)
     error = (0.0, 0.0)  # reference error (log10, K) at the previous node of the row
+    behind: Behind = {}
     out = []
     for j, t0 in enumerate(spec.grid.start_temp_c):
-        node, error = _node(problem, i, j, (thick, t0), (history, nominal), error)
+        node, error = _node(problem, i, j, (thick, t0), (history, nominal), error, behind)
         out.append(node)
     return out
 
@@ -86,17 +98,19 @@ def _search(
     starts: list[tuple[tuple[float, ...], bool]],
     hint_s: float,
     fewer: Searched | None,
+    radius_s: tuple[float, float] = SCREEN,
 ) -> tuple[Searched, int]:
     """Search from the first start; the others only if it fails or is no faster than ``fewer``.
 
     Each start is (dwells in s, whether it was predicted from neighbouring nodes); a
-    predicted start is screened (to :data:`SCREEN_TOLERANCE_S`), the others are searched.
+    predicted start is searched in a trust region (``radius_s``: first and last radius, s),
+    the others by the simplex to the last radius.
     """
     best: Searched | None = None
     runs, errors = 0, []
     for start, near in starts:
         try:
-            res = search_events(cases, seq, start, hint_s, near=near, radius_s=SCREEN)
+            res = search_events(cases, seq, start, hint_s, near=near, radius_s=radius_s)
         except SearchError as exc:
             errors.append(str(exc))
             continue
@@ -117,7 +131,9 @@ def _node(
     at: tuple[float, float],
     histories: tuple[History, History],
     error: tuple[float, float],
+    behind: Behind,
 ) -> tuple[Node, tuple[float, float]]:
+    """Plan and certify one node; ``behind`` is read, then refilled for the next node."""
     spec = problem.spec
     a, p = spec.appliance, spec.planning
     history, nominal_history = histories
@@ -131,7 +147,7 @@ def _node(
     for kinds in problem.sequences:
         seq = Sequence(kinds, a.min_event_gap_s, a.flip_air_s)
         fewer = found.get(kinds[:-1]) if kinds and kinds[-1] == "flip" else None
-        unpaid = _unpaid(kinds, found, p.flip_cost_s)
+        unpaid = _unpaid(kinds, found, p.flip_cost_s) or _far_behind(kinds, behind, history)
         if unpaid is not None:
             why_not[kinds] = unpaid
             continue
@@ -141,8 +157,11 @@ def _node(
         if kinds and kinds[:-1] in found:
             starts.append((seed_from(found[kinds[:-1]], seq), False))
         starts.append((_cold_start(seq, hint), False))
+        # the sequence chosen at the previous node is searched to the polish's tolerance at
+        # once (one trust-region search instead of a screening and a second search)
+        radius = (NEAR_RADIUS_S, POLISH_TOLERANCE_S) if behind.get(kinds) == 0.0 else SCREEN
         try:
-            found[kinds], runs_of[kinds] = _search(coarse, seq, starts, hint, fewer)
+            found[kinds], runs_of[kinds] = _search(coarse, seq, starts, hint, fewer, radius)
         except SearchError as exc:
             why_not[kinds] = str(exc)
     if not found:
@@ -164,6 +183,9 @@ def _node(
             found[kinds] = finer
     for kinds, res in found.items():
         history.setdefault(kinds, []).append((at[1], res.dwell_s, res.done_s))
+    least = min(cost(r) for r in found.values())
+    behind.clear()
+    behind.update({kinds: cost(res) / least - 1.0 for kinds, res in found.items()})
     total_runs = sum(runs_of.values())
     cands = []
     for kinds in problem.sequences:
@@ -262,16 +284,19 @@ def _predicted(
     """Start for ``kinds`` at ``t0``: the row's dwells extrapolated, rescaled, s.
 
     Done times jump where the start temperature crosses the freezing point (latent heat), and
-    a straight extrapolation misses the jump. The sequence with one event fewer has already
-    been searched at this node: its done time over its own extrapolated done time scales the
-    dwells (1 in smooth stretches of the row).
+    a straight extrapolation misses the jump. The sequence with one event fewer (or, when it
+    was not searched here, the nearest shorter one that was; the one with no events always
+    is) has already been searched at this node: its done time over its own extrapolated done
+    time scales the dwells (1 in smooth stretches of the row).
     """
     dwell, _ = _extrapolated(history, kinds, t0)
-    parent = kinds[:-1]
-    if parent in found and any(e[0] != t0 for e in history.get(parent, ())):
-        _, expected = _extrapolated(history, parent, t0)
-        if expected > 0.0:
-            dwell = dwell * (found[parent].done_s / expected)
+    for n in range(len(kinds) - 1, -1, -1):  # the nearest shorter sequence searched here
+        parent = kinds[:n]
+        if parent in found and any(e[0] != t0 for e in history.get(parent, ())):
+            _, expected = _extrapolated(history, parent, t0)
+            if expected > 0.0:
+                dwell = dwell * (found[parent].done_s / expected)
+            break
     return tuple(float(v) for v in dwell)
 
 
@@ -299,6 +324,23 @@ def _unpaid(
     return (
         f"{NOT_SEARCHED}flip {n - 1} shortened the cook by {gain:.1f} s, no more than the "
         f"flip cost ({flip_cost_s:g} s)"
+    )
+
+
+def _far_behind(kinds: tuple[str, ...], behind: Behind, history: History) -> str | None:
+    """Why ``kinds`` is not searched: far behind at the previous node (None: search it).
+
+    Only a sequence searched at the previous node is judged (one left out there is searched
+    again, which refreshes its history); one with no events costs a single run and is
+    always run.
+    """
+    gap = behind.get(kinds)
+    if not kinds or gap is None or gap <= FAR_BEHIND:
+        return None
+    t_prev = history[kinds][-1][0]
+    return (
+        f"{NOT_SEARCHED}{100.0 * gap:.1f} % slower than the fastest sequence at the previous "
+        f"node ({t_prev:g} degC), more than {100.0 * FAR_BEHIND:g} %"
     )
 
 
