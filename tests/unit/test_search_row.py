@@ -68,6 +68,18 @@ def test_prediction_follows_the_jump_of_the_sequence_with_one_event_fewer() -> N
     np.testing.assert_allclose(_predicted(history, kinds, found, 0.0), [90.0 * 0.7])
 
 
+def test_just_past_the_jump_the_last_node_alone_is_extrapolated() -> None:
+    # the line through -3 and 0 degC carries the jump's slope (the no-flip cook would be
+    # 173 s at 2 degC); the last node alone predicts it within 1.2 %: that is taken
+    kinds = FLIPS[1]
+    history = {
+        FLIPS[0]: [(-3.0, (), 370.0), (0.0, (), 252.0)],
+        kinds: [(-3.0, (93.0,), 185.0), (0.0, (63.0,), 130.0)],
+    }
+    found = {FLIPS[0]: _res(FLIPS[0], 249.0)}
+    np.testing.assert_allclose(_predicted(history, kinds, found, 2.0), [63.0 * 249.0 / 252.0])
+
+
 def test_prediction_falls_back_to_the_nearest_shorter_sequence_searched_here() -> None:
     # the 1-flip sequence was left out at this node (far behind): the jump is read off the
     # no-flip sequence instead

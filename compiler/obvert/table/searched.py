@@ -270,9 +270,14 @@ def _nominal_start(
     return tuple(float(v) for v in np.asarray(robust.dwell_s) * ratio)
 
 
-def _extrapolated(history: History, kinds: tuple[str, ...], t0: float) -> tuple[np.ndarray, float]:
-    """Dwells (s) and done time (s) of ``kinds`` at ``t0`` from the row's last two nodes."""
-    last = [e for e in history[kinds] if e[0] != t0][-2:]
+def _extrapolated(
+    history: History, kinds: tuple[str, ...], t0: float, nodes: int = 2
+) -> tuple[np.ndarray, float]:
+    """Dwells (s) and done time (s) of ``kinds`` at ``t0`` from the row's last ``nodes`` nodes.
+
+    Two nodes: the straight line through them; one: its values as they are.
+    """
+    last = [e for e in history[kinds] if e[0] != t0][-nodes:]
     dwell = predict([(t, d) for t, d, _ in last], t0)
     done = float(predict([(t, (x,)) for t, _, x in last], t0)[0])
     return dwell, done
@@ -287,17 +292,29 @@ def _predicted(
     a straight extrapolation misses the jump. The sequence with one event fewer (or, when it
     was not searched here, the nearest shorter one that was; the one with no events always
     is) has already been searched at this node: its done time over its own extrapolated done
-    time scales the dwells (1 in smooth stretches of the row).
+    time scales the dwells (1 in smooth stretches of the row). Just past the jump the line
+    through the last two nodes carries the jump's slope; the last node alone is taken
+    instead wherever it predicted that shorter sequence's done time better.
     """
-    dwell, _ = _extrapolated(history, kinds, t0)
     for n in range(len(kinds) - 1, -1, -1):  # the nearest shorter sequence searched here
         parent = kinds[:n]
         if parent in found and any(e[0] != t0 for e in history.get(parent, ())):
-            _, expected = _extrapolated(history, parent, t0)
-            if expected > 0.0:
-                dwell = dwell * (found[parent].done_s / expected)
             break
-    return tuple(float(v) for v in dwell)
+    else:
+        return tuple(float(v) for v in _extrapolated(history, kinds, t0)[0])
+    done = found[parent].done_s
+    best: tuple[float, np.ndarray] | None = None
+    for nodes in (2, 1):
+        dwell, _ = _extrapolated(history, kinds, t0, nodes)
+        _, expected = _extrapolated(history, parent, t0, nodes)
+        if expected <= 0.0:
+            continue
+        miss = abs(done / expected - 1.0)
+        if best is None or miss < best[0] - 1e-12:
+            best = (miss, dwell * (done / expected))
+    if best is None:
+        return tuple(float(v) for v in _extrapolated(history, kinds, t0)[0])
+    return tuple(float(v) for v in best[1])
 
 
 def _unpaid(
