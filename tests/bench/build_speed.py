@@ -7,8 +7,9 @@ Printed, all in one run (figures are ratios against baselines measured in the sa
 * the demo build (the production-size demo ``griddle_line``: 10 thicknesses by 8 start
   temperatures, up to 4 flips, tolerances on; or a 2 x 2 corner of it with ``--quick``):
   wall time and nodes; then every row again in this process, each node's own CPU time in
-  units of one reference run of that node's certified schedule (CPU time of one run of the
-  schedule at the spec's reference settings);
+  units of one reference run of that node's certified schedule (the least CPU time of three
+  runs of the schedule at the spec's reference settings), and the whole build (wall time
+  times jobs) in the same units;
 * cold against warm: one node of the demo (12 mm from -14 degC) searched for 2 and for 4
   flips from evenly spaced flips and from the prediction of its two neighbours at -18 and
   -10 degC (continuation; simplex, and the trust region the build uses), in runs of the
