@@ -20,7 +20,9 @@ Printed, all in one run (figures are ratios against baselines measured in the sa
   passing done of each found by certification (one long reference run read off, confirmed
   by exact runs), against the cook time of the table's plan for the same flip count
   (planned, calibrated and certified at the same single scenario), the relative gap and
-  the ratio of the brute force's time to the plan's.
+  the ratio of the brute force's time to the plan's; the plan with and without
+  ``[planning] reference_polish = "last_event"`` (the last event searched on the reference);
+* with ``--polish``, also the demo build with that setting (wall time and node costs).
 
 Figures of a run are recorded in docs/speed.md.
 """
@@ -175,23 +177,28 @@ def optimum_figures(spec: obvert.Spec) -> None:
     for flips in (1, 2):
         s = replace(spec1, appliance=replace(spec1.appliance, max_flips=flips))
         s = replace(s, planning=replace(s.planning, flip_cost_s=0.0))
-        t0 = time.perf_counter()
-        table = obvert.compile_table(s, ["json"])
-        plan_s = time.perf_counter() - t0
-        node = table.nodes[0]
-        # the plan's flip times with done found as the brute force finds it (no error
-        # budget), so that the gap measures the plan, not the safety margin
-        plan_flips = tuple(e.at_s for e in node.schedule.events if e.kind == "flip")
-        plan_done = _earliest_done(cases, plan_flips, tick, node.schedule.done_s - 5.0)
-        done, at, brute_s = brute_force(cases, flips, tick, 1.2 * node.schedule.done_s)
-        gap = plan_done / done - 1.0
-        print(
-            f"10 mm from 4 degC, up to {flips} flip(s): table {node.schedule.done_s:.1f} s with "
-            f"its error budget, plan's flips alone {plan_done:.1f} s ({node.schedule.flips} "
-            f"flips, {plan_s:.1f} s to build); brute force {done:.1f} s (flips at {at}, "
-            f"{brute_s:.0f} s); gap {100 * gap:+.3f} %; brute force / plan time "
-            f"{brute_s / plan_s:.0f}x"
-        )
+        plans = []
+        for polish in ("off", "last_event"):
+            sp = replace(s, planning=replace(s.planning, reference_polish=polish))
+            t0 = time.perf_counter()
+            table = obvert.compile_table(sp, ["json"])
+            plan_s = time.perf_counter() - t0
+            node = table.nodes[0]
+            # the plan's flip times with done found as the brute force finds it (no error
+            # budget), so that the gap measures the plan, not the safety margin
+            plan_flips = tuple(e.at_s for e in node.schedule.events if e.kind == "flip")
+            plan_done = _earliest_done(cases, plan_flips, tick, node.schedule.done_s - 5.0)
+            plans.append((polish, node, plan_flips, plan_done, plan_s))
+        done, at, brute_s = brute_force(cases, flips, tick, 1.2 * plans[0][1].schedule.done_s)
+        for polish, node, plan_flips, plan_done, plan_s in plans:
+            gap = plan_done / done - 1.0
+            print(
+                f"10 mm from 4 degC, up to {flips} flip(s), reference_polish = {polish}: table "
+                f"{node.schedule.done_s:.1f} s with its error budget, plan's flips {plan_flips} "
+                f"alone {plan_done:.1f} s ({plan_s:.1f} s to build); brute force {done:.1f} s "
+                f"(flips at {at}, {brute_s:.0f} s); gap {100 * gap:+.3f} %; brute force / plan "
+                f"time {brute_s / plan_s:.0f}x"
+            )
 
 
 def warm_figures(spec: obvert.Spec) -> None:
@@ -237,9 +244,16 @@ def main() -> None:
     ap.add_argument(
         "--demo", default="griddle_line", help="built-in demo (griddle: 3 x 3, up to 2 flips)"
     )
+    ap.add_argument(
+        "--polish", action="store_true", help='also build with reference_polish = "last_event"'
+    )
     args = ap.parse_args()
     spec = _spec(args.quick, args.demo)
     build_figures(spec, args.jobs)
+    if args.polish:
+        print('with [planning] reference_polish = "last_event":')
+        polished = replace(spec, planning=replace(spec.planning, reference_polish="last_event"))
+        build_figures(polished, args.jobs)
     warm_figures(spec)
     if not args.skip_brute_force:
         optimum_figures(spec)

@@ -578,6 +578,18 @@ KEY_LIST: tuple[Key, ...] = (
     ),
     Key(
         "planning",
+        "reference_polish",
+        "choice",
+        "Search the time of the chosen plan's last event on the reference itself (golden "
+        "section over 2 s either way, about 8 reference read-offs per node: about twice the "
+        "build time), or not.",
+        default="off",
+        choices=("off", "last_event"),
+        example='"last_event"',
+        note="search only; the search mesh's own optimum can be a tick slower: docs/speed.md",
+    ),
+    Key(
+        "planning",
         "spectral_nodes",
         "integer",
         "Chebyshev nodes of the reduced model.",

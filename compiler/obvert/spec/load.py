@@ -286,6 +286,7 @@ def _planning(sec: Section | None) -> PlanningSpec:
         method=sec.get("method"),
         search_cells=sec.get("search_cells"),
         search_step_s=sec.get("search_step"),
+        reference_polish=sec.get("reference_polish"),
     )
     sec.done()
     return out

@@ -203,6 +203,9 @@ class PlanningSpec:
         Finite-volume cells of the search model, -.
     search_step_s : float
         Largest time step of the search model, s.
+    reference_polish : str
+        ``off``, or ``last_event``: the chosen plan's last event searched on the reference
+        itself (search method only).
     """
 
     flip_cost_s: float
@@ -217,6 +220,7 @@ class PlanningSpec:
     method: str = "search"
     search_cells: int = 30
     search_step_s: float = 0.5
+    reference_polish: str = "off"
 
 
 @dataclass(frozen=True)

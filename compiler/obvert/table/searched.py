@@ -9,10 +9,12 @@ searched once the flip before it saved no more than the flip cost (each flip sav
 the one before). The screened sequences within :data:`POLISH_BAND_S` of the least cost (cook
 time plus ``flip_cost`` per flip, on the search mesh) are searched on to
 :data:`~obvert.search.events.POLISH_TOLERANCE_S`, and the least cost wins. Its event times
-are put on whole ticks, and its done time is read off one reference run per scenario,
-against the target raised by the margin certification will ask for (the spec's minimum plus
-the reference error measured at the previous node of the row), so that certification usually
-passes at its first run. Certification then decides, as for any plan
+are put on whole ticks (with ``[planning] reference_polish = "last_event"``, the last event
+is then searched again on the reference itself, tick by tick:
+:func:`_last_event_on_reference`), and its done time is read off one reference run per
+scenario, against the target raised by the margin certification will ask for (the spec's
+minimum plus the reference error measured at the previous node of the row), so that
+certification usually passes at its first run. Certification then decides, as for any plan
 (:func:`obvert.table.entry.certified_node`).
 
 The nodes of a row are solved in order of start temperature, each from the ones before it,
@@ -205,7 +207,11 @@ def _node(
     # done off the reference itself, against the margin certification will ask for
     stricter = [raised(c, p.min_margin_log + error[0], error[1]) for c in cases]
     # the search mesh's done time is within a few tenths of a per cent of the reference's
-    planned = read_done(stricter, seq, dwell, 1.03 * choice.done_s + 10.0)
+    horizon = 1.03 * choice.done_s + 10.0
+    if p.reference_polish == "last_event" and seq.n_free > 0:
+        dwell, planned = _last_event_on_reference(stricter, seq, dwell, horizon, a.tick_s)
+    else:
+        planned = read_done(stricter, seq, dwell, horizon)
     if not math.isfinite(planned):
         planned = read_done(stricter, seq, dwell, 1.5 * choice.done_s + 60.0)
     if not math.isfinite(planned):
@@ -251,6 +257,52 @@ def _polish(cases: tuple[Case, ...], screened: Searched) -> Searched:
     except SearchError:
         return screened
     return res
+
+
+#: How far the last event is searched on the reference either way, s (the search mesh's
+#: optimum put a 2-flip plan's last flip 1.4 s early: docs/speed.md).
+REFERENCE_POLISH_S = 2.0
+
+
+def _last_event_on_reference(
+    cases: list[Case], seq: Sequence, dwell: tuple[float, ...], horizon_s: float, tick_s: float
+) -> tuple[tuple[float, ...], float]:
+    """The last event's dwell searched on the reference, in whole ticks; (dwells s, done s).
+
+    Golden-section search over :data:`REFERENCE_POLISH_S` either way of ``dwell`` (whose
+    events are on ticks), each point's done time read off one reference run per case
+    (:func:`obvert.search.read_done`, continuous in the dwell), down to one tick; the best
+    point read is kept (the start's own when nothing is faster). Moving the last dwell by
+    whole ticks keeps every event on a tick.
+    """
+    k = seq.n_free - 1
+    lb = float(seq.lower_bounds()[k])
+    seen: dict[int, float] = {}
+
+    def done_at(m: int) -> float:  # the last dwell moved by m ticks
+        if m not in seen:
+            d = list(dwell)
+            d[k] = dwell[k] + m * tick_s
+            seen[m] = read_done(cases, seq, d, horizon_s) if d[k] >= lb - 1e-9 else math.inf
+        return seen[m]
+
+    lo, hi = -round(REFERENCE_POLISH_S / tick_s), round(REFERENCE_POLISH_S / tick_s)
+    ratio = (math.sqrt(5.0) - 1.0) / 2.0
+    while hi - lo > 2:
+        a_, b_ = round(hi - ratio * (hi - lo)), round(lo + ratio * (hi - lo))
+        if a_ == b_:
+            b_ = a_ + 1
+        if done_at(a_) <= done_at(b_):
+            hi = b_
+        else:
+            lo = a_
+    for m in range(lo, hi + 1):
+        done_at(m)
+    done_at(0)
+    best = min(seen, key=lambda m: (seen[m], abs(m)))  # ties: the search mesh's own time
+    d = list(dwell)
+    d[k] = dwell[k] + best * tick_s
+    return tuple(d), seen[best]
 
 
 def _nominal_start(

@@ -5,8 +5,8 @@
  * Generated file: do not edit; rebuild it from the spec instead.
  * Target profile: c99_bilinear (C99 table (.c and .h), bilinear binary32
  * lookup on thickness in mm and start temperature in degC)
- * Spec sha256:     b4b6557ac5ad2d34c609c8ec089dd052a2fbd44b02198becb3cf174d2c9204b2
- * Manifest sha256: cfaede6dc7b0128d67f3ee2201f085923d48726c3afc8e6c5d63a8bece085a1b
+ * Spec sha256:     90a2285ff31e28f3f09d22d770542582ab03c2b759a031ab6e6fbec32c5a3e93
+ * Manifest sha256: 0831847628da201b1e8c76e0a0d3f592b1a59eb4aa2af8b61454c29ef0d6fc3f
  *
  * FOOD-SAFETY CAUTION:
  * Engineering aid only. This cook program must be validated by temperature
@@ -67,7 +67,7 @@
 #if !defined(TEST_PATTY_FORMAT_VERSION) || TEST_PATTY_FORMAT_VERSION != 2
 #error "test_patty: the header has another table format version than this file"
 #endif
-#if !defined(TEST_PATTY_TABLE_ID) || TEST_PATTY_TABLE_ID != 0xCFAEDE6DUL
+#if !defined(TEST_PATTY_TABLE_ID) || TEST_PATTY_TABLE_ID != 0x08318476UL
 #error "test_patty: the header comes from another build of the table than this file"
 #endif
 
