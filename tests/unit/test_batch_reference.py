@@ -200,6 +200,8 @@ def test_one_summary_is_the_batch_s_and_names_the_field_plainly() -> None:
     assert one.min_log_reduction == many.min_log_reduction
     with pytest.raises(ValueError, match=r"^thickness_m = 0\.0 "):
         simulate_one(BEEF, CookCase(0.0, 5.0, [Phase(3.0, PLATE, AIR)]), KINETICS, COARSE)
+    with pytest.raises(ValueError, match=r"^removal_phase = 1 is invalid"):
+        simulate_one(BEEF, CookCase(0.01, 5.0, [Phase(3.0, PLATE, AIR)], 1), KINETICS, COARSE)
 
 
 def test_judge_without_a_hold_rule_reads_the_full_history_s_numbers() -> None:

@@ -348,24 +348,19 @@ def _predicted(
     through the last two nodes carries the jump's slope; the last node alone is taken
     instead wherever it predicted that shorter sequence's done time better.
     """
-    for n in range(len(kinds) - 1, -1, -1):  # the nearest shorter sequence searched here
-        parent = kinds[:n]
-        if parent in found and any(e[0] != t0 for e in history.get(parent, ())):
-            break
-    else:
-        return tuple(float(v) for v in _extrapolated(history, kinds, t0)[0])
-    done = found[parent].done_s
-    best: tuple[float, np.ndarray] | None = None
-    for nodes in (2, 1):
-        dwell, _ = _extrapolated(history, kinds, t0, nodes)
-        _, expected = _extrapolated(history, parent, t0, nodes)
-        if expected <= 0.0:
-            continue
-        miss = abs(done / expected - 1.0)
-        if best is None or miss < best[0] - 1e-12:
-            best = (miss, dwell * (done / expected))
-    if best is None:
-        return tuple(float(v) for v in _extrapolated(history, kinds, t0)[0])
+    # no shorter sequence to rescale by: the straight line
+    best = (math.inf, _extrapolated(history, kinds, t0)[0])
+    shorter = (kinds[:n] for n in range(len(kinds) - 1, -1, -1))
+    parent = next(
+        (s for s in shorter if s in found and any(e[0] != t0 for e in history.get(s, ()))), None
+    )
+    if parent is not None:  # the nearest shorter sequence searched here
+        done = found[parent].done_s
+        for nodes in (2, 1):
+            dwell, _ = _extrapolated(history, kinds, t0, nodes)
+            _, expected = _extrapolated(history, parent, t0, nodes)
+            if expected > 0.0 and abs(done / expected - 1.0) < best[0] - 1e-12:
+                best = (abs(done / expected - 1.0), dwell * (done / expected))
     return tuple(float(v) for v in best[1])
 
 

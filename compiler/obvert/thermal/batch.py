@@ -83,18 +83,22 @@ def _check_case(table: PropertyTable, case: CookCase, n: int, i: int) -> None:
     if not isinstance(case, CookCase):
         raise TypeError(f"cases[{i}] = {case!r} is invalid: must be a CookCase")
     try:
-        start = np.asarray(case.start_temp_c, dtype=float)
-        check_inputs(table, float(case.thickness_m), start, list(case.phases), n)
+        _check(table, case, n)
     except ValueError as err:
         raise ValueError(f"cases[{i}].{err}") from None
+
+
+def _check(table: PropertyTable, case: CookCase, n: int) -> None:
+    """Raise ``ValueError`` naming the field of ``case`` that is not allowed."""
+    start = np.asarray(case.start_temp_c, dtype=float)
+    check_inputs(table, float(case.thickness_m), start, list(case.phases), n)
     r, last = case.removal_phase, len(case.phases) - 1
     ok = r is None or (
         isinstance(r, int | np.integer) and not isinstance(r, bool) and 0 <= r <= last
     )
     if not ok:
         raise ValueError(
-            f"cases[{i}].removal_phase = {r!r} is invalid: "
-            f"must be None or an integer in [0, {last}]"
+            f"removal_phase = {r!r} is invalid: must be None or an integer in [0, {last}]"
         )
 
 
@@ -188,8 +192,7 @@ def simulate_one(
         On invalid input, naming the field and its value (as
         :func:`obvert.thermal.reference.simulate`).
     """
-    start = np.asarray(case.start_temp_c, dtype=float)
-    check_inputs(table, float(case.thickness_m), start, list(case.phases), settings.n_cells)
+    _check(table, case, settings.n_cells)
     return _summary(table, case, lethality, settings)
 
 

@@ -322,7 +322,7 @@ def simulate_minima(
     RowMinima
         Times (s), coldest temperatures (degC) and smallest log reductions (log10) per row.
     """
-    out = _march(
+    out = _kernel_run(
         table, thickness_m, start_temp_c, phases, lethality, settings, None, end_early, minima=True
     )
     return RowMinima(out.t_s, out.temp_c[:, 0].copy(), out.log_reduction[:, 0].copy())
@@ -374,7 +374,9 @@ def _run(
     end_early: EarlyEnd | None = None,
 ) -> ReferenceResult:
     """Check the inputs and march the cook, recording every step end."""
-    out = _march(table, thickness_m, start_temp_c, phases, lethality, settings, forcing, end_early)
+    out = _kernel_run(
+        table, thickness_m, start_temp_c, phases, lethality, settings, forcing, end_early
+    )
     n = settings.n_cells
     return ReferenceResult(
         t_s=out.t_s,
@@ -387,7 +389,7 @@ def _run(
     )
 
 
-def _march(
+def _kernel_run(
     table: PropertyTable,
     thickness_m: float,
     start_temp_c: float | ArrayLike,
